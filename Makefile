@@ -1,0 +1,30 @@
+# gravplan: the two commands of the README, and a few helpers.
+# `make demo` and `make test` create the virtual environment themselves.
+
+PYTHON ?= python3
+VENV   ?= .venv
+BIN    := $(VENV)/bin
+STAMP  := $(VENV)/.installed
+
+.PHONY: demo test bench clean
+
+$(STAMP): pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/pip install --quiet --upgrade pip
+	$(BIN)/pip install --quiet -e '.[test]'
+	touch $(STAMP)
+
+demo_terrain/dem.tif: demo_terrain/generate.py $(STAMP)
+	$(BIN)/python demo_terrain/generate.py
+
+demo: $(STAMP) demo_terrain/dem.tif
+	$(BIN)/gravplan demo --out outputs/demo
+
+test: $(STAMP)
+	$(BIN)/python -m pytest -q
+
+bench: $(STAMP)
+	$(BIN)/python benchmarks/bench_sampling.py
+
+clean:
+	rm -rf $(VENV) outputs/demo demo_terrain/dem.tif

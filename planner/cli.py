@@ -1,0 +1,181 @@
+"""The ``gravplan`` command line: parse, call the API, print.  No computation here."""
+
+from __future__ import annotations
+
+import logging
+import sys
+import warnings
+from pathlib import Path
+
+import click
+
+from .errors import PlannerError
+
+DEMO_SCENARIO = Path(__file__).resolve().parent.parent / "demo_terrain" / "scenario.toml"
+
+
+class _Reported(click.ClickException):
+    def show(self, file=None):
+        click.echo(f"error: {self.message}", err=True)
+
+
+def _run(fn):
+    """Call ``fn``, turning PlannerErrors into a message and exit 1, warnings into lines."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            result = fn()
+        except PlannerError as exc:
+            _print_warnings(caught)
+            raise _Reported(str(exc)) from None
+    _print_warnings(caught)
+    return result
+
+
+def _print_warnings(caught):
+    seen = set()
+    for w in caught:
+        text = str(w.message)
+        if text not in seen:
+            seen.add(text)
+            click.echo(f"warning: {text}", err=True)
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.option("-v", "--verbose", count=True, help="More log output on stderr.")
+@click.version_option(package_name="gravplan")
+def main(verbose):
+    """Plan gravity-fed water pipelines from a route and a DEM.
+
+    \b
+    Examples:
+      gravplan demo
+      gravplan profile route.geojson --dem dem.tif --out profile.csv
+      gravplan plan scenario.toml --out results/
+    """
+    logging.basicConfig(level=logging.WARNING - 10 * verbose, stream=sys.stderr,
+                        format="%(levelname)s %(name)s: %(message)s")
+
+
+@main.command()
+@click.argument("route", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--dem", "dems", multiple=True, required=True, type=click.Path(path_type=Path),
+              help="DEM file (GeoTIFF, VRT, ...); repeat for several tiles.")
+@click.option("--spacing", type=float, default=None, help="Largest point spacing [m]; default the DEM cell size.")
+@click.option("--cover", type=float, default=0.8, show_default=True, help="Cover over the pipe [m].")
+@click.option("--max-void", type=float, default=150.0, show_default=True,
+              help="Longest DEM void bridged along the line [m].")
+@click.option("--out", type=click.Path(dir_okay=False, path_type=Path), default=None,
+              help="Write the profile as CSV here (default: standard output).")
+def profile(route, dems, spacing, cover, max_void, out):
+    """Sample the elevation profile of ROUTE over a DEM.
+
+    \b
+    Example:
+      gravplan profile demo_terrain/route.geojson --dem demo_terrain/dem.tif --out profile.csv
+    """
+    from . import api
+    from .report.profile_csv import profile_csv_text, write_profile_csv
+
+    prof = _run(lambda: api.sample_profile(route, list(dems), spacing_m=spacing, cover_m=cover,
+                                           max_void_m=max_void))
+    if out is None:
+        click.echo(profile_csv_text(prof), nl=False)
+    else:
+        write_profile_csv(prof, out)
+        click.echo(f"wrote {out}")
+    click.echo(f"{prof.n} points over {prof.length_m:,.1f} m (pipe length "
+               f"{prof.slope_length_m[-1]:,.1f} m); ground {prof.ground_m.min():.1f} to "
+               f"{prof.ground_m.max():.1f} m", err=True)
+
+
+def _report(plan, written):
+    from .units import LPS
+
+    sc, e = plan.scenario, plan.energy
+    click.echo(f"{sc.project.name}")
+    click.echo(f"  line {plan.profile.length_m:,.0f} m, design flow "
+               f"{plan.total_flow_m3s / LPS:.2f} L/s, pipe {sc.pipe.label or sc.pipe.material}")
+    click.echo("  energy balance per reach (m of water head):")
+    ch = plan.profile.chainage_m
+    for r in e.reaches:
+        click.echo(f"    {ch[r.start_index]:>8,.0f} to {ch[r.end_index]:>8,.0f} m: available "
+                   f"{r.available:7.2f} = friction {r.friction:6.2f} + minor {r.minor:5.2f} + "
+                   f"velocity head {r.velocity_head:4.2f} + residual pressure "
+                   f"{r.residual_pressure:6.2f}")
+    click.echo("  outlets:")
+    for o in plan.outlets:
+        mark = "ok " if o.ok else "LOW"
+        click.echo(f"    [{mark}] {o.name}: chainage {o.chainage_m:,.0f} m, "
+                   f"{o.flow_m3s / LPS:.2f} L/s, residual {o.pressure_head_m:.1f} m "
+                   f"(min {o.min_pressure_m:g} m)")
+    if plan.findings:
+        click.echo("  findings:")
+        for f in plan.findings:
+            click.echo(f"    {f.severity:<7} {f.message}")
+            if f.remedy:
+                click.echo(f"            -> {f.remedy}")
+    for name, path in written.items():
+        click.echo(f"  wrote {path}")
+    click.echo("  Planning aid only: confirm levels in the field; local codes and a licensed "
+               "engineer take precedence.")
+
+
+def _plan_and_write(scenario_path: Path, out: Path):
+    from . import api
+
+    def work():
+        sc = api.load_scenario(scenario_path)
+        pl = api.plan(sc)
+        return pl, api.write_outputs(pl, out)
+
+    pl, written = _run(work)
+    _report(pl, written)
+    return pl
+
+
+@main.command()
+@click.argument("scenario", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--out", type=click.Path(file_okay=False, path_type=Path), default=Path("outputs/plan"),
+              show_default=True, help="Folder for plan.json, profile.csv, profile.png, map.html.")
+@click.option("--overwrite", is_flag=True, help="Replace results already in --out.")
+def plan(scenario, out, overwrite):
+    """Compute heads and pressures for SCENARIO and write the results.
+
+    Exits with status 2 when the plan has errors (for example sub-atmospheric
+    pressure or an outlet short of pressure); the files are still written so that
+    they can be inspected.
+
+    \b
+    Example:
+      gravplan plan demo_terrain/scenario.toml --out outputs/demo --overwrite
+    """
+    if (out / "plan.json").exists() and not overwrite:
+        raise _Reported(f"{out} already holds a plan; pass --overwrite to replace it")
+    pl = _plan_and_write(scenario, out)
+    if pl.errors:
+        sys.exit(2)
+
+
+@main.command()
+@click.option("--out", type=click.Path(file_okay=False, path_type=Path), default=Path("outputs/demo"),
+              show_default=True, help="Folder for the demo's results (replaced).")
+def demo(out):
+    """Plan the bundled invented demo line and write its results.
+
+    Generates the demo terrain first if it is not there yet.
+    """
+    if not DEMO_SCENARIO.is_file():
+        raise _Reported(f"the demo scenario is not installed ({DEMO_SCENARIO}); run gravplan "
+                        "from a clone of the repository")
+    dem = DEMO_SCENARIO.parent / "dem.tif"
+    if not dem.is_file():
+        import runpy
+
+        click.echo(f"generating the demo terrain in {dem.parent}")
+        runpy.run_path(str(DEMO_SCENARIO.parent / "generate.py"), run_name="__main__")
+    _plan_and_write(DEMO_SCENARIO, out)
+
+
+if __name__ == "__main__":
+    main()

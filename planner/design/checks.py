@@ -1,0 +1,185 @@
+"""Checks of a computed line against the design criteria, as Findings.
+
+Each check looks at every profile point, not only at outlets: the critical point of
+a gravity line is often a crest in the middle.  A finding says where, what, and what
+to do about it.  Sources of the limits are given with the criteria in
+docs/scenario.md.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ..units import LPS
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One result of a check.
+
+    Attributes
+    ----------
+    severity : str
+        ``"error"`` (the design does not work or is unsafe as stated), ``"warning"``
+        (works, but outside good practice) or ``"note"``.
+    code : str
+        Short stable identifier of the check, e.g. ``"sub-atmospheric"``.
+    message : str
+        What is wrong, with numbers.
+    remedy : str
+        What to do about it.
+    chainage_m : float or None
+        Start of the stretch concerned [m].
+    chainage_end_m : float or None
+        End of the stretch [m] (equal to the start for a point).
+    """
+
+    severity: str
+    code: str
+    message: str
+    remedy: str = ""
+    chainage_m: float | None = None
+    chainage_end_m: float | None = None
+
+
+def stretches(mask: NDArray[np.bool_]) -> list[tuple[int, int]]:
+    """Runs of True in a boolean array, as inclusive (first, last) index pairs.
+
+    Examples
+    --------
+    >>> stretches(np.array([False, True, True, False, True]))
+    [(1, 2), (4, 4)]
+    """
+    m = np.asarray(mask, dtype=np.int8)
+    edges = np.flatnonzero(np.diff(np.concatenate([[0], m, [0]])))
+    return [(int(a), int(b) - 1) for a, b in zip(edges[::2], edges[1::2])]
+
+
+def _where(ch: NDArray, a: int, b: int) -> str:
+    return f"at chainage {ch[a]:,.0f} m" if a == b else \
+        f"from chainage {ch[a]:,.0f} to {ch[b]:,.0f} m"
+
+
+def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_head: NDArray,
+               velocity: NDArray, flowing: NDArray, rating_head: float, criteria,
+               surface_index: tuple[int, ...] = (0,)) -> list[Finding]:
+    """Pressure and velocity checks at every profile point.
+
+    Parameters
+    ----------
+    chainage : ndarray
+        [m].
+    pressure_head : ndarray
+        Pressure head at design flow [m].
+    static_pressure_head : ndarray
+        Pressure head with all outlets closed [m].
+    velocity : ndarray
+        Velocity of the pipe leaving each point [m/s].
+    flowing : ndarray of bool
+        Where the pipe carries flow at design conditions.
+    rating_head : float
+        The pipe's rated pressure as head [m].
+    criteria : Criteria
+        Limits (see :class:`planner.scenario.Criteria`).
+    surface_index : tuple of int
+        Points where a free surface feeds the line (source, tanks).  A low-pressure
+        stretch that starts there is the tank's own shallow head, not a margin
+        problem, and is not reported as one.
+
+    Returns
+    -------
+    list of Finding
+    """
+    ch = chainage
+    out: list[Finding] = []
+    for a, b in stretches(pressure_head < 0):
+        worst = a + int(np.argmin(pressure_head[a:b + 1]))
+        out.append(Finding(
+            "error", "sub-atmospheric",
+            f"pressure below atmospheric {_where(ch, a, b)} (lowest {pressure_head[worst]:.1f} m "
+            f"at {ch[worst]:,.0f} m): the pipe lies above the hydraulic grade line, so the line "
+            "runs as a siphon, air comes out of solution and dirty water can be drawn in at "
+            "leaks",
+            "use a larger pipe upstream of this stretch, lower the line (deeper trench or "
+            "another route), or move a break-pressure tank",
+            float(ch[a]), float(ch[b])))
+    low = (pressure_head >= 0) & (pressure_head < criteria.min_line_pressure_m) & flowing
+    for a, b in stretches(low):
+        if a in surface_index:
+            continue
+        worst = a + int(np.argmin(pressure_head[a:b + 1]))
+        out.append(Finding(
+            "warning", "low-pressure",
+            f"pressure head below {criteria.min_line_pressure_m:g} m {_where(ch, a, b)} (lowest "
+            f"{pressure_head[worst]:.1f} m): little margin before sub-atmospheric pressure, "
+            "given DEM error",
+            "check the levels in the field; consider a larger pipe upstream",
+            float(ch[a]), float(ch[b])))
+    for a, b in stretches(static_pressure_head > rating_head):
+        worst = a + int(np.argmax(static_pressure_head[a:b + 1]))
+        out.append(Finding(
+            "error", "over-rating",
+            f"static pressure above the pipe rating ({rating_head:.0f} m of head) "
+            f"{_where(ch, a, b)} (highest {static_pressure_head[worst]:.1f} m at "
+            f"{ch[worst]:,.0f} m): the pipe may burst when outlets close",
+            "add a break-pressure tank upstream of this stretch or use a higher pressure class",
+            float(ch[a]), float(ch[b])))
+    fast = (velocity > criteria.velocity_max_mps) & flowing
+    for a, b in stretches(fast):
+        out.append(Finding(
+            "warning", "velocity-high",
+            f"velocity {velocity[a:b + 1].max():.2f} m/s {_where(ch, a, b)} is above "
+            f"{criteria.velocity_max_mps:g} m/s: surge and erosion risk",
+            "use a larger pipe; close valves slowly", float(ch[a]), float(ch[b])))
+    slow = (velocity < criteria.velocity_min_mps) & flowing
+    for a, b in stretches(slow):
+        out.append(Finding(
+            "warning", "velocity-low",
+            f"velocity {velocity[a:b + 1].min():.2f} m/s {_where(ch, a, b)} is below "
+            f"{criteria.velocity_min_mps:g} m/s: sediment settles and air is not carried along",
+            "use a smaller pipe where pressure allows; provide washouts and air valves",
+            float(ch[a]), float(ch[b])))
+    return out
+
+
+def check_outlet(name: str, chainage: float, pressure_head: float, min_pressure: float) -> list[Finding]:
+    """Residual pressure at an outlet against its minimum."""
+    if pressure_head >= min_pressure:
+        return []
+    return [Finding(
+        "error", "outlet-pressure",
+        f"{name} at chainage {chainage:,.0f} m gets {pressure_head:.1f} m of pressure head at "
+        f"design flow, below its minimum of {min_pressure:g} m",
+        "use a larger pipe upstream, reduce the design flow, or move the outlet lower",
+        chainage, chainage)]
+
+
+def check_tank(name: str, chainage: float, arrival_hgl: float, level: float) -> list[Finding]:
+    """Whether the design flow reaches a break-pressure tank's water level."""
+    if arrival_hgl >= level:
+        return []
+    return [Finding(
+        "error", "tank-not-reached",
+        f"at design flow the hydraulic grade line arrives at {name} (chainage {chainage:,.0f} m) "
+        f"at {arrival_hgl:.1f} m, {level - arrival_hgl:.1f} m below the tank's water level "
+        f"{level:.1f} m: the tank cannot fill at that flow",
+        "use a larger pipe upstream or place the tank lower", chainage, chainage)]
+
+
+def check_yield(total_flow: float, yield_flow: float | None) -> list[Finding]:
+    """Design flow against the source's safe yield."""
+    if yield_flow is None:
+        return [Finding("note", "yield-unknown", "the source's yield is not stated, so the "
+                        "design flow is not checked against it",
+                        "measure the yield in the dry season and add source.yield_lps")]
+    if total_flow <= yield_flow:
+        return []
+    return [Finding(
+        "error", "yield-exceeded",
+        f"design flow {total_flow / LPS:.2f} L/s exceeds the source yield "
+        f"{yield_flow / LPS:.2f} L/s",
+        "add a storage tank to balance peak demand against the yield, reduce the demand, "
+        "or add a source")]

@@ -1,0 +1,1 @@
+"""Files and coordinates: routes, DEMs, and the profile sampled along a route."""

@@ -1,0 +1,321 @@
+"""The profile of a route: chainage, coordinates, ground and pipe elevations.
+
+:func:`sample_profile` densifies a route at a spacing (keeping its vertices), samples
+the DEM bilinearly in the DEM's own CRS (the route is reprojected, never the DEM),
+fills short voids along the line and refuses long ones.  Chainage is geodesic on a
+geographic DEM (pyproj.Geod, WGS84 ellipsoid) and planar in a projected DEM's own
+metric otherwise, with a warning where that metric is distorted by more than 0.1 %.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+from numpy.typing import NDArray
+from pyproj import CRS, Geod, Proj, Transformer
+from pyproj.aoi import AreaOfInterest
+from pyproj.database import query_utm_crs_info
+from shapely.geometry import LineString
+
+from ..errors import InputError, NoDataWarning, TerrainError, TerrainWarning
+from .route import WGS84, Route, Survey, read_route, route_from_line
+from .terrain import Dem, open_dem
+
+#: Longest DEM void that is bridged by linear interpolation along the line [m].
+DEFAULT_MAX_VOID_M = 150.0
+#: Scale distortion of a projected CRS above which the user is told [-].
+DISTORTION_LIMIT = 1e-3
+_GEOD = Geod(ellps="WGS84")
+
+
+@dataclass(frozen=True)
+class Profile:
+    """Elevation profile of one link, SI units, one entry per profile point.
+
+    Attributes
+    ----------
+    chainage_m : ndarray
+        Horizontal distance from the link start [m].
+    slope_length_m : ndarray
+        Cumulative 3-D length along the pipe [m].
+    x, y : ndarray
+        Coordinates in ``crs`` (a metric CRS) [m]; NaN for a survey without them.
+    lon, lat : ndarray
+        WGS84 longitude and latitude [degrees]; NaN when unknown.
+    ground_m : ndarray
+        Ground elevation [m, on ``vertical_datum``].
+    pipe_m : ndarray
+        Pipe elevation, ground minus cover [m].
+    filled : ndarray of bool
+        True where the ground was bridged across a DEM void.
+    vertex_index : ndarray of int
+        Indices of the route's own vertices among the points.
+    crs : str
+        The working metric CRS of x and y.
+    spacing_m : float
+        Requested spacing between points [m].
+    cover_m : float
+        Cover from ground to pipe [m].
+    elevation_source : str
+        Where the ground elevations come from.
+    vertical_datum : str
+        The vertical datum of the elevations, as stated by the user or the DEM.
+    notes : tuple of str
+        What the user should know about this profile (voids filled, distortion).
+    """
+
+    chainage_m: NDArray[np.float64]
+    slope_length_m: NDArray[np.float64]
+    x: NDArray[np.float64]
+    y: NDArray[np.float64]
+    lon: NDArray[np.float64]
+    lat: NDArray[np.float64]
+    ground_m: NDArray[np.float64]
+    pipe_m: NDArray[np.float64]
+    filled: NDArray[np.bool_]
+    vertex_index: NDArray[np.int64]
+    crs: str
+    spacing_m: float
+    cover_m: float
+    elevation_source: str
+    vertical_datum: str = "as the DEM (not stated)"
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def length_m(self) -> float:
+        """Horizontal length of the line [m]."""
+        return float(self.chainage_m[-1])
+
+    @property
+    def n(self) -> int:
+        """Number of profile points."""
+        return int(self.chainage_m.size)
+
+    def index_at(self, chainage: float) -> int:
+        """Index of the profile point nearest to a chainage [m]."""
+        return int(np.argmin(np.abs(self.chainage_m - chainage)))
+
+
+def _densify_planar(xv: NDArray, yv: NDArray, spacing: float):
+    """Points at most ``spacing`` apart along a polyline, vertices kept."""
+    seg = np.hypot(np.diff(xv), np.diff(yv))
+    nseg = np.maximum(1, np.ceil(seg / spacing - 1e-9)).astype(np.int64)
+    k = np.repeat(np.arange(seg.size), nseg)
+    first = np.repeat(np.cumsum(nseg) - nseg, nseg)
+    t = (np.arange(nseg.sum()) - first) / nseg[k]
+    x = np.append(xv[k] + t * np.diff(xv)[k], xv[-1])
+    y = np.append(yv[k] + t * np.diff(yv)[k], yv[-1])
+    chain = np.append(np.concatenate([[0.0], np.cumsum(seg)])[k] + t * seg[k], seg.sum())
+    vertex_index = np.concatenate([[0], np.cumsum(nseg)])
+    return x, y, chain, vertex_index
+
+
+def _densify_geodesic(lon: NDArray, lat: NDArray, spacing: float):
+    """Points along geodesics at most ``spacing`` metres apart, vertices kept."""
+    az, _, seg = _GEOD.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+    seg, az = np.asarray(seg), np.asarray(az)
+    nseg = np.maximum(1, np.ceil(seg / spacing - 1e-9)).astype(np.int64)
+    k = np.repeat(np.arange(seg.size), nseg)
+    first = np.repeat(np.cumsum(nseg) - nseg, nseg)
+    t = (np.arange(nseg.sum()) - first) / nseg[k]
+    plon, plat, _ = _GEOD.fwd(lon[k], lat[k], az[k], t * seg[k])
+    x = np.append(plon, lon[-1])
+    y = np.append(plat, lat[-1])
+    chain = np.append(np.concatenate([[0.0], np.cumsum(seg)])[k] + t * seg[k], seg.sum())
+    return x, y, chain, np.concatenate([[0], np.cumsum(nseg)])
+
+
+def utm_crs_for(lon: float, lat: float) -> CRS:
+    """The WGS84 UTM zone CRS holding a point (pyproj's CRS database)."""
+    info = query_utm_crs_info(datum_name="WGS 84",
+                              area_of_interest=AreaOfInterest(lon, lat, lon, lat))
+    return CRS.from_epsg(int(info[0].code))
+
+
+def _fill_voids(chain: NDArray, z: NDArray, max_void_m: float, source: str):
+    """Bridge NaN runs along the line by linear interpolation; refuse long ones."""
+    void = ~np.isfinite(z)
+    if not np.any(void):
+        return z, void, []
+    if np.all(void):
+        raise TerrainError(f"{source}: the DEM has no data anywhere along the route "
+                           f"(0 to {chain[-1]:,.0f} m); check the DEM covers the route")
+    edges = np.flatnonzero(np.diff(np.concatenate([[0], void.astype(np.int8), [0]])))
+    starts, stops = edges[::2], edges[1::2]        # void runs [start, stop)
+    notes = []
+    for a, b in zip(starts, stops):
+        lo = chain[a - 1] if a > 0 else None
+        hi = chain[b] if b < chain.size else None
+        if lo is None or hi is None:
+            end = "start" if lo is None else "end"
+            raise TerrainError(
+                f"{source}: the DEM has a void at the {end} of the route, chainage "
+                f"{chain[a]:,.0f} to {chain[b - 1]:,.0f} m, that cannot be bridged; "
+                "fill the DEM or survey that stretch")
+        if hi - lo > max_void_m:
+            raise TerrainError(
+                f"{source}: the route crosses a DEM void from chainage {lo:,.0f} to "
+                f"{hi:,.0f} m ({hi - lo:,.0f} m, more than the {max_void_m:g} m that may be "
+                "bridged); fill the DEM from another source, survey the stretch, or raise "
+                "terrain.max_void_m knowingly")
+        notes.append(f"DEM void bridged linearly from chainage {lo:,.0f} to {hi:,.0f} m "
+                     f"({hi - lo:,.0f} m)")
+    good = ~void
+    filled = z.copy()
+    filled[void] = np.interp(chain[void], chain[good], z[good])
+    for note in notes:
+        warnings.warn(f"{source}: {note}", NoDataWarning, stacklevel=3)
+    return filled, void, notes
+
+
+def _slope_length(chain: NDArray, z: NDArray) -> NDArray:
+    return np.concatenate([[0.0], np.cumsum(np.hypot(np.diff(chain), np.diff(z)))])
+
+
+def _as_route(route) -> Route:
+    if isinstance(route, Route):
+        return route
+    if isinstance(route, LineString):
+        return route_from_line(route)
+    if isinstance(route, (str, Path)):
+        got = read_route(route)
+        if isinstance(got, Survey):
+            raise InputError(f"{route}: a CSV survey carries its own elevations; use "
+                             "profile_from_survey() (or give it as the scenario's route)")
+        return got
+    raise InputError(f"route must be a path, a shapely LineString or a Route, got {type(route)}")
+
+
+def sample_profile(route, dem, spacing_m: float | None = None, cover_m: float = 0.8, *,
+                   max_void_m: float = DEFAULT_MAX_VOID_M,
+                   vertical_datum: str | None = None) -> Profile:
+    """Sample a DEM along a route.
+
+    Parameters
+    ----------
+    route : str, Path, shapely.LineString or Route
+        A route file, or a line in WGS84 (longitude, latitude) [degrees].
+    dem : str, Path, list of paths, or Dem
+        One raster, a list of tiles in one CRS, or a VRT.
+    spacing_m : float, optional
+        Largest distance between profile points [m]; default the DEM's cell size.
+    cover_m : float
+        Cover from ground to the pipe [m] (0.8 m: rural mains in fields, common
+        practice; see docs/scenario.md).
+    max_void_m : float
+        Longest DEM void bridged along the line [m]; longer voids are an error.
+    vertical_datum : str, optional
+        Name of the elevations' vertical datum, for reports.
+
+    Returns
+    -------
+    Profile
+
+    Raises
+    ------
+    TerrainError
+        If the route leaves the DEM or crosses a void longer than ``max_void_m``.
+    """
+    r = _as_route(route)
+    if cover_m < 0:
+        raise InputError(f"cover must be >= 0 m, got {cover_m!r}")
+    owned = not isinstance(dem, Dem)
+    grid = open_dem(dem)
+    try:
+        return _sample(r, grid, spacing_m, cover_m, max_void_m, vertical_datum)
+    finally:
+        if owned:
+            grid.close()
+
+
+def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum) -> Profile:
+    lonv, latv = (np.asarray(c, dtype=float) for c in r.line.xy)
+    notes: list[str] = []
+    rx, ry = grid.resolution
+    if grid.is_geographic:
+        cell_m = min(rx * 111_320.0 * np.cos(np.radians(np.mean(latv))), ry * 110_574.0)
+        spacing = float(spacing_m or cell_m)
+        if not spacing > 0:
+            raise InputError(f"spacing must be positive, got {spacing_m!r} m")
+        lon, lat, chain, vidx = _densify_geodesic(lonv, latv, spacing)
+        to_dem = Transformer.from_crs(WGS84, grid.crs, always_xy=True)
+        dx, dy = to_dem.transform(lon, lat)
+        work = utm_crs_for(float(np.mean(lonv)), float(np.mean(latv)))
+        x, y = Transformer.from_crs(WGS84, work, always_xy=True).transform(lon, lat)
+        notes.append(f"chainage is geodesic on the WGS84 ellipsoid; x, y in {work.to_string()}")
+    else:
+        unit = grid.crs.axis_info[0].unit_conversion_factor or 1.0
+        spacing = float(spacing_m or min(rx, ry) * unit)
+        if not spacing > 0:
+            raise InputError(f"spacing must be positive, got {spacing_m!r} m")
+        to_dem = Transformer.from_crs(WGS84, grid.crs, always_xy=True)
+        xv, yv = to_dem.transform(lonv, latv)
+        keep = np.ones(xv.size, dtype=bool)
+        keep[1:] = np.hypot(np.diff(xv), np.diff(yv)) > 0
+        xv, yv = np.asarray(xv)[keep], np.asarray(yv)[keep]
+        dx, dy, chain, vidx = _densify_planar(xv, yv, spacing / unit)
+        chain = chain * unit
+        lon, lat = Transformer.from_crs(grid.crs, WGS84, always_xy=True).transform(dx, dy)
+        x, y, work = dx * unit, dy * unit, grid.crs
+        factors = Proj(grid.crs).get_factors(lonv, latv)
+        distortion = float(np.max(np.abs(np.concatenate(
+            [np.asarray(factors.meridional_scale), np.asarray(factors.parallel_scale)]) - 1.0)))
+        if distortion > DISTORTION_LIMIT:
+            note = (f"the DEM's CRS {grid.crs.to_string()} distorts lengths by up to "
+                    f"{distortion * 100:.2f} % along this route; chainage is in that CRS's metric")
+            notes.append(note)
+            warnings.warn(note, TerrainWarning, stacklevel=3)
+
+    ground, outside = grid.sample(dx, dy)
+    if np.any(outside):
+        out = np.flatnonzero(outside)
+        first, last = int(out[0]), int(out[-1])
+        raise TerrainError(
+            f"{r.source}: the route leaves the DEM {grid.paths[0].name if len(grid.paths) == 1 else 'tiles'}"
+            f" between chainage {chain[first]:,.0f} and {chain[last]:,.0f} m (first point off "
+            f"the DEM at lon {lon[first]:.6f}, lat {lat[first]:.6f}); extend the DEM or "
+            "re-route")
+    ground, filled, void_notes = _fill_voids(chain, ground, max_void_m, r.source)
+    notes.extend(void_notes)
+    pipe = ground - cover_m
+    return Profile(
+        chainage_m=chain, slope_length_m=_slope_length(chain, pipe), x=np.asarray(x, float),
+        y=np.asarray(y, float), lon=np.asarray(lon, float), lat=np.asarray(lat, float),
+        ground_m=ground, pipe_m=pipe, filled=filled, vertex_index=vidx.astype(np.int64),
+        crs=work.to_string(), spacing_m=spacing, cover_m=cover_m,
+        elevation_source=f"DEM {grid.describe()}, bilinear",
+        vertical_datum=vertical_datum or "as the DEM (not stated)", notes=tuple(notes),
+    )
+
+
+def profile_from_survey(survey: Survey, cover_m: float = 0.8, *,
+                        vertical_datum: str | None = None) -> Profile:
+    """A profile from a surveyed line (chainage and ground elevation).
+
+    Coordinates come from the survey's x and y where it has them (and their CRS),
+    otherwise they are NaN and the line cannot be mapped.
+    """
+    chain = survey.chainage_m - survey.chainage_m[0]
+    n = chain.size
+    lon = lat = x = y = np.full(n, np.nan)
+    crs = "none (survey without coordinates)"
+    if survey.x is not None and survey.crs is not None:
+        lon, lat = Transformer.from_crs(survey.crs, WGS84, always_xy=True).transform(
+            survey.x, survey.y)
+        work = survey.crs if survey.crs.is_projected else utm_crs_for(float(np.mean(lon)),
+                                                                    float(np.mean(lat)))
+        x, y = Transformer.from_crs(WGS84, work, always_xy=True).transform(lon, lat)
+        crs = work.to_string()
+    pipe = survey.elevation_m - cover_m
+    spacing = float(np.max(np.diff(chain)))
+    return Profile(
+        chainage_m=chain, slope_length_m=_slope_length(chain, pipe), x=np.asarray(x, float),
+        y=np.asarray(y, float), lon=np.asarray(lon, float), lat=np.asarray(lat, float),
+        ground_m=survey.elevation_m.copy(), pipe_m=pipe, filled=np.zeros(n, dtype=bool),
+        vertex_index=np.arange(n), crs=crs, spacing_m=spacing, cover_m=cover_m,
+        elevation_source=f"survey {Path(survey.source).name}",
+        vertical_datum=vertical_datum or "as surveyed (not stated)",
+    )

@@ -1,0 +1,261 @@
+"""Read a pipeline route: GeoJSON, KML, GPX (tracks and routes) or a CSV survey.
+
+Vector formats are read with pyogrio (GDAL/OGR) and returned as one shapely
+LineString in WGS84 longitude/latitude; a CSV survey (chainage and elevation measured
+on foot, optionally with x and y) is returned as a :class:`Survey` and needs no DEM.
+This module only reads; sampling a DEM along the route is in ``terrain`` and
+``profile``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import shapely
+from numpy.typing import NDArray
+from pyproj import CRS, Transformer
+from shapely.geometry import LineString
+
+from ..errors import InputError, InputFileError
+
+WGS84 = CRS.from_epsg(4326)
+VECTOR_SUFFIXES = {".geojson": "GeoJSON", ".json": "GeoJSON", ".kml": "KML", ".gpx": "GPX"}
+SURVEY_SUFFIXES = {".csv": "CSV survey"}
+
+#: Accepted CSV column names (lower case) for each survey quantity.
+SURVEY_COLUMNS = {
+    "chainage_m": ("chainage_m", "chainage", "distance_m", "distance"),
+    "elevation_m": ("elevation_m", "elevation", "ground_m", "ground", "z"),
+    "x": ("x", "easting", "lon", "longitude"),
+    "y": ("y", "northing", "lat", "latitude"),
+}
+
+
+@dataclass(frozen=True)
+class Route:
+    """A route as drawn or walked: one line in WGS84 lon/lat.
+
+    Attributes
+    ----------
+    line : shapely.LineString
+        Vertices as (longitude, latitude) [degrees].
+    source : str
+        Where it came from (file name), for messages and reports.
+    gps_elevation_m : ndarray or None
+        Elevations stored with the vertices (GPX ``ele``) [m], else None.
+    """
+
+    line: LineString
+    source: str = "<memory>"
+    gps_elevation_m: NDArray[np.float64] | None = None
+
+
+@dataclass(frozen=True)
+class Survey:
+    """A line surveyed on foot: chainage and ground elevation, no DEM needed.
+
+    Attributes
+    ----------
+    chainage_m : ndarray
+        Horizontal distance from the start [m], increasing.
+    elevation_m : ndarray
+        Ground elevation [m].
+    x, y : ndarray or None
+        Coordinates in ``crs`` when the survey has them.
+    crs : pyproj.CRS or None
+        CRS of x and y.
+    source : str
+        File name.
+    """
+
+    chainage_m: NDArray[np.float64]
+    elevation_m: NDArray[np.float64]
+    x: NDArray[np.float64] | None
+    y: NDArray[np.float64] | None
+    crs: CRS | None
+    source: str
+
+
+def route_from_line(line: LineString, source: str = "<memory>") -> Route:
+    """Check a lon/lat LineString and wrap it as a :class:`Route`.
+
+    Removes repeated consecutive vertices and rejects lines with fewer than two
+    distinct points or coordinates outside longitude -180..180, latitude -90..90.
+    """
+    if not isinstance(line, LineString):
+        raise InputError(f"{source}: a route must be a LineString, got {line.geom_type}")
+    xy = np.asarray(line.coords, dtype=float)[:, :2]
+    _check_lonlat(xy, source)
+    keep = np.ones(len(xy), dtype=bool)
+    keep[1:] = np.any(np.diff(xy, axis=0) != 0, axis=1)
+    xy = xy[keep]
+    if len(xy) < 2:
+        raise InputError(f"{source}: the route has fewer than two distinct points; "
+                         "draw or record at least a start and an end")
+    return Route(line=LineString(xy), source=source)
+
+
+def _check_lonlat(xy: NDArray, source: str) -> None:
+    if xy.size == 0 or not np.all(np.isfinite(xy)):
+        bad = int(np.argmax(~np.all(np.isfinite(xy), axis=1))) if xy.size else 0
+        raise InputError(f"{source}: vertex {bad + 1} has a missing or non-numeric coordinate")
+    bad = np.flatnonzero((np.abs(xy[:, 0]) > 180) | (np.abs(xy[:, 1]) > 90))
+    if bad.size:
+        i = int(bad[0])
+        raise InputError(
+            f"{source}: vertex {i + 1} ({xy[i, 0]:g}, {xy[i, 1]:g}) is not a longitude/"
+            "latitude; the file must be in WGS84 degrees (GeoJSON, KML and GPX always are)")
+
+
+def read_route(path: str | Path, *, crs: str | None = None) -> Route | Survey:
+    """Read a route or survey file.
+
+    Parameters
+    ----------
+    path : str or Path
+        ``.geojson``/``.json``, ``.kml``, ``.gpx`` or ``.csv``.
+    crs : str, optional
+        CRS of a CSV survey's x/y columns (e.g. ``"EPSG:32737"``).
+
+    Returns
+    -------
+    Route or Survey
+    """
+    p = Path(path)
+    suffix = p.suffix.lower()
+    if not p.is_file():
+        raise InputFileError(f"{p}: route file not found")
+    if suffix in SURVEY_SUFFIXES:
+        return read_survey(p, crs=crs)
+    if suffix not in VECTOR_SUFFIXES:
+        known = ", ".join(sorted(set(VECTOR_SUFFIXES) | set(SURVEY_SUFFIXES)))
+        raise InputFileError(f"{p}: unknown route format {suffix!r}; use one of {known}")
+    return _read_vector(p, VECTOR_SUFFIXES[suffix])
+
+
+def _read_vector(p: Path, kind: str) -> Route:
+    import pyogrio
+
+    try:
+        available = [str(name) for name, _ in pyogrio.list_layers(p)]
+    except Exception as exc:  # pyogrio raises several GDAL-derived types
+        raise InputFileError(f"{p}: cannot read this {kind} file ({exc})") from None
+    layers = [name for name in ("tracks", "routes") if name in available] if kind == "GPX" \
+        else available
+    geoms, file_crs, elevations, used = [], None, None, None
+    for layer in layers:
+        try:
+            frame = pyogrio.read_dataframe(p, layer=layer)
+        except Exception as exc:
+            raise InputFileError(f"{p}: cannot read layer {layer!r} ({exc})") from None
+        parts = [g for g in frame.geometry if g is not None and not g.is_empty]
+        if parts:
+            geoms.extend(parts)
+            file_crs = file_crs or frame.crs
+            used = used or layer
+            if kind == "GPX":
+                break
+    if kind == "GPX" and geoms:
+        elevations = _gpx_elevations(p, used)
+    if not geoms:
+        raise InputFileError(f"{p}: the {kind} file holds no line geometry")
+    lines = []
+    for g in geoms:
+        if g.geom_type in ("LineString", "MultiLineString"):
+            lines.append(g)
+        elif g.geom_type == "GeometryCollection":
+            lines.extend(x for x in g.geoms if x.geom_type in ("LineString", "MultiLineString"))
+    if not lines:
+        kinds = sorted({g.geom_type for g in geoms})
+        raise InputFileError(f"{p}: no LineString in the file (found {', '.join(kinds)}); "
+                             "a route is a line from the source to the last outlet")
+    merged = shapely.line_merge(shapely.union_all(lines)) if len(lines) > 1 or \
+        lines[0].geom_type == "MultiLineString" else lines[0]
+    if merged.geom_type != "LineString":
+        n = len(merged.geoms)
+        ends = "; ".join(f"part {i + 1} starts at ({part.coords[0][0]:.6f}, {part.coords[0][1]:.6f})"
+                         for i, part in enumerate(merged.geoms))
+        raise InputFileError(
+            f"{p}: the file holds {n} lines that do not join end to end into one route "
+            f"({ends}); join them, or keep one line per file for a single gravity line")
+    if file_crs is not None and not CRS.from_user_input(file_crs).equals(WGS84):
+        tr = Transformer.from_crs(file_crs, WGS84, always_xy=True)
+        xy = np.asarray(merged.coords)[:, :2]
+        lon, lat = tr.transform(xy[:, 0], xy[:, 1])
+        merged = LineString(np.column_stack([lon, lat]))
+    route = route_from_line(LineString(np.asarray(merged.coords)[:, :2]), source=str(p))
+    if elevations is not None and len(elevations) == len(route.line.coords):
+        return Route(line=route.line, source=route.source, gps_elevation_m=elevations)
+    return route
+
+
+def _gpx_elevations(p: Path, layer: str | None) -> NDArray | None:
+    """Elevations of GPX track or route points, where every point has one."""
+    import pyogrio
+
+    points_layer = "track_points" if layer == "tracks" else "route_points"
+    try:
+        frame = pyogrio.read_dataframe(p, layer=points_layer, read_geometry=False, columns=["ele"])
+    except Exception:
+        return None
+    ele = np.asarray(frame["ele"], dtype=float) if "ele" in frame else None
+    if ele is None or ele.size == 0 or not np.all(np.isfinite(ele)):
+        return None
+    return ele
+
+
+def read_survey(path: str | Path, *, crs: str | None = None) -> Survey:
+    """Read a CSV survey: chainage and elevation, optionally x and y.
+
+    Column names are matched case-insensitively against :data:`SURVEY_COLUMNS`
+    (``chainage_m``/``chainage``, ``elevation_m``/``elevation``/``ground_m``, ``x``,
+    ``y``); other columns are ignored.
+    """
+    import pandas as pd
+
+    p = Path(path)
+    try:
+        frame = pd.read_csv(p, comment="#", skipinitialspace=True)
+    except Exception as exc:
+        raise InputFileError(f"{p}: cannot read this CSV survey ({exc})") from None
+    columns = {c.strip().lower(): c for c in frame.columns}
+    found = {}
+    for key, names in SURVEY_COLUMNS.items():
+        for name in names:
+            if name in columns:
+                found[key] = columns[name]
+                break
+    missing = [k for k in ("chainage_m", "elevation_m") if k not in found]
+    if missing:
+        raise InputFileError(
+            f"{p}: the survey needs columns {', '.join(missing)} "
+            f"(found: {', '.join(map(str, frame.columns)) or 'none'})")
+
+    def column(key: str) -> NDArray:
+        values = pd.to_numeric(frame[found[key]], errors="coerce").to_numpy(dtype=float)
+        bad = np.flatnonzero(~np.isfinite(values))
+        if bad.size:
+            raise InputFileError(f"{p}: row {int(bad[0]) + 2}, column {found[key]!r} "
+                                 "is empty or not a number")
+        return values
+
+    chainage, elevation = column("chainage_m"), column("elevation_m")
+    if chainage.size < 2:
+        raise InputFileError(f"{p}: a survey needs at least two rows")
+    step = np.diff(chainage)
+    if np.any(step <= 0):
+        i = int(np.flatnonzero(step <= 0)[0])
+        raise InputFileError(f"{p}: chainage must increase; row {i + 3} ({chainage[i + 1]:g} m) "
+                             f"does not come after row {i + 2} ({chainage[i]:g} m)")
+    x = y = None
+    survey_crs = None
+    if "x" in found and "y" in found:
+        x, y = column("x"), column("y")
+        if crs is None:
+            raise InputError(f"{p}: the survey has x and y columns; say their CRS "
+                             "(scenario key route.crs, or --crs on the command line)")
+        survey_crs = CRS.from_user_input(crs)
+    return Survey(chainage_m=chainage, elevation_m=elevation, x=x, y=y, crs=survey_crs,
+                  source=str(p))

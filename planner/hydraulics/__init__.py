@@ -1,0 +1,1 @@
+"""Physics on arrays in SI units: water properties, friction, energy along a line."""

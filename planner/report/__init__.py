@@ -1,0 +1,1 @@
+"""Presentation: plan.json, drawings, the map.  Reads a Plan; computes no hydraulics."""

@@ -1,0 +1,139 @@
+"""plan.json: the machine-readable result of a plan (schema in docs/plan-json.md).
+
+The file is deterministic: the same inputs give the same bytes (no timestamps, fixed
+key order, fixed rounding).  Heads are in metres of water; pressures are also given
+in bar using the water density at the design temperature.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+
+from .. import __version__
+from ..design.plan import Plan
+from ..units import BAR, G, LPS
+from .files import write_text
+
+SCHEMA = "gravplan.plan/1"
+CAUTIONS = (
+    "Planning aid only: elevations from a DEM can be wrong by several metres (more under "
+    "trees); confirm levels by field survey before construction.",
+    "Static pressures assume every outlet closed with the line full; surge from fast valve "
+    "closure adds to them and is not yet included.",
+    "Sub-atmospheric pressure lets contaminated water in at leaks: never accept it in a "
+    "drinking-water line.",
+    "Local codes, standards and a licensed engineer's review take precedence over this result.",
+)
+
+
+def _r(values, digits):
+    """Round an array to a list, NaN -> None."""
+    arr = np.round(np.asarray(values, dtype=float), digits)
+    return [None if not math.isfinite(v) else (0.0 if v == 0 else float(v)) for v in arr]
+
+
+def _f(value, digits=3):
+    if value is None or not math.isfinite(value):
+        return None
+    return round(float(value), digits)
+
+
+def plan_to_dict(plan: Plan) -> dict:
+    """The plan as plain JSON-ready data (see docs/plan-json.md)."""
+    sc, prof, e = plan.scenario, plan.profile, plan.energy
+    bar_per_m = plan.density * G / BAR
+    points = {
+        "chainage_m": _r(prof.chainage_m, 2),
+        "slope_length_m": _r(prof.slope_length_m, 2),
+        "x": _r(prof.x, 2), "y": _r(prof.y, 2),
+        "lon": _r(prof.lon, 7), "lat": _r(prof.lat, 7),
+        "ground_m": _r(prof.ground_m, 3), "pipe_m": _r(prof.pipe_m, 3),
+        "ground_filled": [bool(v) for v in prof.filled],
+        "static_head_m": _r(e.static_head, 3),
+        "hgl_m": _r(e.hgl, 3),
+        "energy_m": _r(e.energy, 3),
+        "pressure_head_m": _r(e.pressure_head, 3),
+        "static_pressure_head_m": _r(e.static_pressure_head, 3),
+        "flow_lps": _r(e.flow / LPS, 4),
+        "velocity_mps": _r(e.velocity, 4),
+    }
+    balance = [{
+        "from_chainage_m": _f(prof.chainage_m[r.start_index], 2),
+        "to_chainage_m": _f(prof.chainage_m[r.end_index], 2),
+        "operating_level_m": _f(r.operating_level), "end_pipe_elevation_m": _f(r.end_elevation),
+        "available_head_m": _f(r.available), "friction_loss_m": _f(r.friction),
+        "minor_loss_m": _f(r.minor), "velocity_head_m": _f(r.velocity_head),
+        "residual_pressure_head_m": _f(r.residual_pressure), "closure_m": _f(r.closure, 6),
+    } for r in e.reaches]
+    return {
+        "schema": SCHEMA,
+        "tool": {"name": "gravplan", "version": __version__},
+        "project": {"name": sc.project.name, "reference": sc.project.reference,
+                    "engineer": sc.project.engineer, "notes": sc.project.notes},
+        "inputs": {
+            "scenario": sc.path.name,
+            "route": sc.route.file.name,
+            "elevation_source": prof.elevation_source,
+            "vertical_datum": prof.vertical_datum,
+            "crs": prof.crs,
+            "spacing_m": _f(prof.spacing_m, 3),
+            "cover_m": _f(prof.cover_m, 3),
+            "pipe": {"material": sc.pipe.material, "label": sc.pipe.label,
+                     "inside_diameter_mm": _f(sc.pipe.inside_diameter_m * 1e3, 2),
+                     "roughness_mm": _f(sc.pipe.roughness_m * 1e3, 4)
+                     if sc.pipe.roughness_m is not None else None,
+                     "hazen_williams_c": sc.pipe.c_factor,
+                     "rating_bar": _f(sc.pipe.rating_pa / BAR, 2),
+                     "rating_head_m": _f(plan.rating_head_m, 2)},
+            "criteria": {k: getattr(sc.criteria, k) for k in sc.criteria.__dataclass_fields__},
+        },
+        "water": {"temperature_c": sc.criteria.temperature_c,
+                  "density_kg_m3": _f(plan.density, 3),
+                  "kinematic_viscosity_m2_s": float(f"{plan.kinematic_viscosity:.6g}"),
+                  "bar_per_m_head": _f(bar_per_m, 6)},
+        "source": {"name": sc.source.name, "top_water_level_m": _f(plan.source_top_level_m),
+                   "low_water_level_m": _f(plan.source_low_level_m),
+                   "yield_lps": _f(sc.source.yield_m3s / LPS, 3)
+                   if sc.source.yield_m3s is not None else None},
+        "summary": {
+            "length_m": _f(prof.length_m, 2),
+            "pipe_length_m": _f(prof.slope_length_m[-1], 2),
+            "design_flow_lps": _f(plan.total_flow_m3s / LPS, 3),
+            "min_pressure_head_m": _f(np.nanmin(e.pressure_head)),
+            "min_pressure_chainage_m": _f(prof.chainage_m[int(np.nanargmin(e.pressure_head))], 2),
+            "max_static_pressure_head_m": _f(np.nanmax(e.static_pressure_head)),
+            "max_static_pressure_bar": _f(np.nanmax(e.static_pressure_head) * bar_per_m, 3),
+            "max_static_chainage_m": _f(prof.chainage_m[int(np.nanargmax(e.static_pressure_head))], 2),
+            "errors": sum(f.severity == "error" for f in plan.findings),
+            "warnings": sum(f.severity == "warning" for f in plan.findings),
+        },
+        "outlets": [{
+            "name": o.name, "kind": o.kind, "chainage_m": _f(o.chainage_m, 2),
+            "point_index": o.index, "flow_lps": _f(o.flow_m3s / LPS, 4),
+            "ground_m": _f(o.ground_m), "residual_pressure_head_m": _f(o.pressure_head_m),
+            "residual_pressure_bar": _f(o.pressure_head_m * bar_per_m, 3),
+            "min_pressure_head_m": o.min_pressure_m, "ok": o.ok,
+        } for o in plan.outlets],
+        "break_pressure_tanks": [{
+            "name": t.name, "chainage_m": _f(t.chainage_m, 2), "point_index": t.index,
+            "water_level_m": _f(t.water_level_m), "arrival_hgl_m": _f(t.arrival_hgl_m),
+            "head_dissipated_m": _f(t.dissipated_m),
+        } for t in plan.tanks],
+        "energy_balance": balance,
+        "findings": [{
+            "severity": f.severity, "code": f.code, "chainage_m": _f(f.chainage_m, 2),
+            "chainage_end_m": _f(f.chainage_end_m, 2), "message": f.message, "remedy": f.remedy,
+        } for f in plan.findings],
+        "cautions": list(CAUTIONS),
+        "points": points,
+    }
+
+
+def write_plan_json(plan: Plan, path: str | Path) -> Path:
+    """Write plan.json atomically."""
+    text = json.dumps(plan_to_dict(plan), indent=1, ensure_ascii=False, allow_nan=False)
+    return write_text(path, text + "\n")

@@ -1,0 +1,126 @@
+"""The longitudinal profile drawing (matplotlib): ground, pipe, static head, HGL, pressures.
+
+Upper panel: elevations along the chainage, with the static head line (a free
+surface's level, stepping down at each break-pressure tank), the hydraulic grade
+line at design flow, outlets and tanks.  Lower panel: pressure head at design flow
+and with outlets closed, against the pipe rating.  The vertical exaggeration is
+computed from the final axes and printed on the sheet.  Styled to stay legible in
+black and white: line styles, not only colours, tell the lines apart.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from ..design.checks import stretches
+from ..design.plan import Plan
+from .files import atomic_path
+
+
+def _hgl_segments(plan: Plan):
+    """HGL per reach, ending with the head that arrives at each tank."""
+    e, ch = plan.energy, plan.profile.chainage_m
+    for r in e.reaches:
+        a, b = r.start_index, r.end_index
+        y = e.hgl[a:b + 1].copy()
+        if np.isfinite(e.arrival_hgl[b]):
+            y[-1] = e.arrival_hgl[b]
+        yield ch[a:b + 1], y, e.static_head[a]
+
+
+def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
+    """Draw the profile; return the matplotlib Figure."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    prof, e = plan.profile, plan.energy
+    km = prof.chainage_m / 1000.0
+    if ax is None:
+        fig, (ax, axp) = plt.subplots(2, 1, figsize=figsize, sharex=True, layout="constrained",
+                                      gridspec_kw={"height_ratios": [3, 1.4]})
+        fig.get_layout_engine().set(rect=(0.0, 0.03, 1.0, 0.97))
+    else:
+        fig, axp = ax.figure, None
+
+    base = float(np.nanmin(prof.pipe_m)) - 20.0
+    ax.fill_between(km, prof.ground_m, base, color="#d9cbb0", edgecolor="none", label="ground")
+    ax.plot(km, prof.ground_m, color="#6b5a3e", lw=1.0)
+    ax.plot(km, prof.pipe_m, color="black", lw=1.6, label=f"pipe ({prof.cover_m:g} m cover)")
+    for n, (a, b) in enumerate(stretches(prof.filled)):
+        lo, hi = km[max(a - 1, 0)], km[min(b + 1, km.size - 1)]
+        for axis in (ax, axp) if axp is not None else (ax,):
+            axis.axvspan(lo, hi, facecolor="none", edgecolor="#b00000", hatch="///", lw=0.0,
+                         label="DEM void, ground bridged" if n == 0 and axis is ax else None)
+    first = True
+    for x, y, static in _hgl_segments(plan):
+        ax.plot(x / 1000.0, np.full(x.size, static), color="#1f4e9c", lw=1.2, ls="--",
+                label="static head line" if first else None)
+        ax.plot(x / 1000.0, y, color="#c0392b", lw=1.8, ls="-",
+                label="hydraulic grade line (design flow)" if first else None)
+        first = False
+    ax.plot([0], [plan.source_top_level_m], marker="v", ms=10, color="#1f4e9c", ls="none",
+            label=plan.scenario.source.name)
+    for t in plan.tanks:
+        c = t.chainage_m / 1000.0
+        ax.plot([c], [t.water_level_m], marker="s", ms=9, mfc="white", mec="black", ls="none")
+        ax.annotate(f"{t.name}\nch {t.chainage_m:,.0f} m, WL {t.water_level_m:.1f} m", (c, t.water_level_m),
+                    xytext=(6, 14), textcoords="offset points", fontsize=8,
+                    bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.8))
+    for o in plan.outlets:
+        c = o.chainage_m / 1000.0
+        z = prof.pipe_m[o.index]
+        ax.plot([c], [z], marker="o", ms=8, mfc="#2e8b57", mec="black", ls="none")
+        near_end = o.chainage_m > 0.85 * prof.length_m
+        ax.annotate(f"{o.name}\n{o.flow_m3s * 1e3:.2f} L/s, {o.pressure_head_m:.1f} m",
+                    (c, z), xytext=(-8 if near_end else 8, -30), textcoords="offset points",
+                    fontsize=8, ha="right" if near_end else "left",
+                    bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.8))
+    top = max(plan.source_top_level_m, float(np.nanmax(e.hgl))) + 15.0
+    ax.set_ylim(base, top)
+    ax.set_ylabel("elevation [m]")
+    ax.grid(True, color="#cccccc", lw=0.5)
+    ax.legend(loc="lower left", fontsize=8, framealpha=0.9)
+    ax.set_xlim(-0.01 * km[-1], 1.01 * km[-1])
+    sc = plan.scenario
+    ax.set_title(f"{sc.project.name}\n{sc.pipe.label or sc.pipe.material}, "
+                 f"design flow {plan.total_flow_m3s * 1e3:.2f} L/s", fontsize=11, loc="left")
+
+    if axp is not None:
+        axp.plot(km, e.pressure_head, color="#c0392b", lw=1.5, label="pressure head, design flow")
+        axp.plot(km, e.static_pressure_head, color="#1f4e9c", lw=1.2, ls="--",
+                 label="static pressure head (outlets closed)")
+        axp.axhline(plan.rating_head_m, color="black", lw=1.0, ls="-.",
+                    label=f"pipe rating {sc.pipe.rating_pa / 1e5:g} bar = {plan.rating_head_m:.0f} m")
+        axp.axhline(0.0, color="#888888", lw=0.8)
+        axp.set_ylabel("pressure head [m]")
+        axp.set_xlabel("chainage [km]")
+        axp.grid(True, color="#cccccc", lw=0.5)
+        axp.legend(loc="upper left", fontsize=8, framealpha=0.9)
+
+    fig.canvas.draw()
+    bbox = ax.get_window_extent().transformed(fig.dpi_scale_trans.inverted())
+    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
+    ve = ((x1 - x0) * 1000.0 / bbox.width) / ((y1 - y0) / bbox.height)
+    fig.text(0.01, 0.005,
+             f"Vertical exaggeration about {ve:,.0f}:1.  Elevations: {prof.elevation_source}; "
+             f"datum {prof.vertical_datum}; CRS {prof.crs}.  Planning aid only - confirm levels in "
+             "the field; local codes and a licensed engineer take precedence.",
+             fontsize=7, color="#333333")
+    return fig
+
+
+def write_profile_png(plan: Plan, path: str | Path, *, dpi: int = 130) -> Path:
+    """Draw the profile and save it as PNG, atomically."""
+    import matplotlib.pyplot as plt
+
+    fig = draw_profile(plan)
+    try:
+        with atomic_path(path) as tmp:
+            fig.savefig(tmp, dpi=dpi, format="png")
+    finally:
+        plt.close(fig)
+    return Path(path)

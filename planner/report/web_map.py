@@ -1,0 +1,144 @@
+"""The interactive map (folium/Leaflet): route over a hillshade, coloured by pressure.
+
+Every user-supplied text shown in the page is HTML-escaped.  The page still loads
+Leaflet from its CDN; a fully offline page is planned (see docs/architecture.md).
+"""
+
+from __future__ import annotations
+
+import html
+from pathlib import Path
+
+import numpy as np
+
+from ..design.plan import Plan
+from .files import write_text
+
+#: Most points drawn for the route line; the profile keeps them all.
+MAX_MAP_POINTS = 5000
+
+
+def hillshade(z: np.ndarray, cell_x: float, cell_y: float, *, azimuth_deg: float = 315.0,
+              altitude_deg: float = 45.0) -> np.ndarray:
+    """Shaded relief in 0..1 from an elevation grid (north-up, rows from the north).
+
+    Parameters
+    ----------
+    z : ndarray
+        Elevations [m]; NaN stays NaN.
+    cell_x, cell_y : float
+        Pixel size [m].
+    azimuth_deg, altitude_deg : float
+        Direction and height of the light [degrees].
+
+    Notes
+    -----
+    Lambertian shading of the surface normal, after Horn, "Hill shading and the
+    reflectance map", Proc. IEEE 69(1), 1981 (with central differences).
+    """
+    dzdy, dzdx = np.gradient(z, cell_y, cell_x)
+    dzdy = -dzdy                                    # rows run southwards
+    az, alt = np.radians(360.0 - azimuth_deg + 90.0), np.radians(altitude_deg)
+    slope = np.arctan(np.hypot(dzdx, dzdy))
+    aspect = np.arctan2(dzdy, -dzdx)
+    shade = np.sin(alt) * np.cos(slope) + np.cos(alt) * np.sin(slope) * np.cos(az - aspect)
+    return np.clip(shade, 0.0, 1.0)
+
+
+def _overlay(grid: np.ndarray, transform, crs):
+    """RGBA image and lat/lon bounds of a hillshade warped to Web Mercator."""
+    from rasterio.warp import calculate_default_transform, reproject, transform_bounds
+    from rasterio.enums import Resampling
+
+    h, w = grid.shape
+    left, top = transform * (0, 0)
+    right, bottom = transform * (w, h)
+    dst_crs = "EPSG:3857"
+    dst_t, dw, dh = calculate_default_transform(crs, dst_crs, w, h, left, bottom, right, top)
+    merc = np.full((dh, dw), np.nan)
+    reproject(grid, merc, src_transform=transform, src_crs=crs, dst_transform=dst_t,
+              dst_crs=dst_crs, resampling=Resampling.bilinear, src_nodata=np.nan,
+              dst_nodata=np.nan)
+    shade = hillshade(merc, abs(dst_t.a), abs(dst_t.e))
+    grey = (80 + 175 * np.nan_to_num(shade, nan=1.0)).astype(np.uint8)
+    rgba = np.dstack([grey, grey, grey, np.where(np.isfinite(merc), 255, 0).astype(np.uint8)])
+    l, b, r, t = transform_bounds(dst_crs, "EPSG:4326", dst_t.c, dst_t.f + dst_t.e * dh,
+                                  dst_t.c + dst_t.a * dw, dst_t.f)
+    return rgba, [[b, l], [t, r]]
+
+
+def build_map(plan: Plan, *, terrain=None):
+    """The folium Map of a plan.
+
+    Parameters
+    ----------
+    plan : Plan
+    terrain : tuple, optional
+        ``(grid, transform, crs)`` of a DEM window for the hillshade, from
+        :func:`planner.geo.terrain.read_overview`.
+    """
+    import branca.colormap as cm
+    import folium
+
+    prof, e = plan.profile, plan.energy
+    if not np.all(np.isfinite(prof.lat)):
+        raise ValueError("the line has no coordinates to map")
+    step = max(1, prof.n // MAX_MAP_POINTS)
+    idx = np.unique(np.concatenate([np.arange(0, prof.n, step), [prof.n - 1]]))
+    lat, lon, p = prof.lat[idx], prof.lon[idx], e.pressure_head[idx]
+    m = folium.Map(location=[float(lat.mean()), float(lon.mean())], tiles=None,
+                   control_scale=True, zoom_start=14)
+    if terrain is not None:
+        rgba, bounds = _overlay(*terrain)
+        folium.raster_layers.ImageOverlay(rgba, bounds=bounds, name="hillshade (DEM)",
+                                          opacity=0.9, mercator_project=False).add_to(m)
+    vmax = float(max(plan.rating_head_m, np.nanmax(e.static_pressure_head)))
+    cmap = cm.LinearColormap(["#b2182b", "#f4a582", "#92c5de", "#2166ac", "#053061"],
+                             vmin=float(min(0.0, np.nanmin(p))), vmax=vmax,
+                             caption="pressure head at design flow [m]")
+    route = folium.FeatureGroup(name="pipeline (pressure head)")
+    folium.ColorLine(np.column_stack([lat, lon]).tolist(), colors=p[:-1].tolist(),
+                     colormap=cmap, weight=6).add_to(route)
+    route.add_to(m)
+    cmap.add_to(m)
+
+    marks = folium.FeatureGroup(name="source, tanks, outlets")
+    sc = plan.scenario
+    esc = html.escape
+    folium.Marker([float(prof.lat[0]), float(prof.lon[0])],
+                  popup=folium.Popup(f"<b>{esc(sc.source.name)}</b><br>top water level "
+                                     f"{plan.source_top_level_m:.1f} m<br>low water level "
+                                     f"{plan.source_low_level_m:.1f} m", max_width=300),
+                  tooltip=esc(sc.source.name),
+                  icon=folium.Icon(color="blue", icon="tint", prefix="fa")).add_to(marks)
+    for t in plan.tanks:
+        folium.Marker([float(prof.lat[t.index]), float(prof.lon[t.index])],
+                      popup=folium.Popup(f"<b>{esc(t.name)}</b><br>chainage {t.chainage_m:,.0f} m"
+                                         f"<br>water level {t.water_level_m:.1f} m<br>head "
+                                         f"dissipated {t.dissipated_m:.1f} m", max_width=300),
+                      tooltip=esc(t.name),
+                      icon=folium.Icon(color="gray", icon="square", prefix="fa")).add_to(marks)
+    for o in plan.outlets:
+        folium.Marker([float(prof.lat[o.index]), float(prof.lon[o.index])],
+                      popup=folium.Popup(f"<b>{esc(o.name)}</b> ({esc(o.kind)})<br>chainage "
+                                         f"{o.chainage_m:,.0f} m<br>flow {o.flow_m3s * 1e3:.2f} L/s"
+                                         f"<br>residual pressure {o.pressure_head_m:.1f} m (min "
+                                         f"{o.min_pressure_m:g} m)", max_width=300),
+                      tooltip=esc(o.name),
+                      icon=folium.Icon(color="green" if o.ok else "red", icon="faucet",
+                                       prefix="fa")).add_to(marks)
+    marks.add_to(m)
+    folium.LayerControl(position="bottomright", collapsed=False).add_to(m)
+    m.fit_bounds([[float(lat.min()), float(lon.min())], [float(lat.max()), float(lon.max())]])
+    title = (f"<div style='position:fixed;top:10px;left:60px;z-index:1000;background:white;"
+             f"padding:6px 10px;border:1px solid #888;font:13px sans-serif;max-width:60%'>"
+             f"<b>{esc(sc.project.name)}</b><br>Planning aid only: confirm levels in the field; "
+             f"local codes and a licensed engineer take precedence.</div>")
+    m.get_root().html.add_child(folium.Element(title))
+    return m
+
+
+def write_map(plan: Plan, path: str | Path, *, terrain=None) -> Path:
+    """Write map.html atomically."""
+    m = build_map(plan, terrain=terrain)
+    return write_text(path, m.get_root().render())

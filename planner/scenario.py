@@ -1,0 +1,375 @@
+"""The scenario file (TOML): what the engineer states about one gravity line.
+
+All unit handling of the input happens here: keys carry their unit in their name
+(``flow_lps``, ``inside_diameter_mm``, ``rating_bar``) and are converted to SI on
+loading.  Validation collects every problem it finds and reports them together,
+each with its key and what is expected.  Every key is documented in
+docs/scenario.md.
+"""
+
+from __future__ import annotations
+
+import difflib
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from .errors import InputError, InputFileError
+from .hydraulics.friction import FRICTION_METHODS
+from .units import BAR, LPS, MM
+
+
+@dataclass(frozen=True)
+class Project:
+    name: str
+    reference: str = ""
+    engineer: str = ""
+    notes: str = ""
+
+
+@dataclass(frozen=True)
+class Terrain:
+    dem: tuple[Path, ...]
+    vertical_datum: str = "as the DEM (not stated)"
+    max_void_m: float = 150.0
+
+
+@dataclass(frozen=True)
+class RouteSpec:
+    file: Path
+    spacing_m: float | None = None
+    crs: str | None = None
+
+
+@dataclass(frozen=True)
+class Source:
+    """The source's free surface; levels absolute [m] or above the ground at the start."""
+
+    name: str
+    top_level_m: float | None
+    low_level_m: float | None
+    top_above_ground_m: float | None
+    low_above_ground_m: float | None
+    yield_m3s: float | None
+
+
+@dataclass(frozen=True)
+class Pipe:
+    material: str
+    label: str
+    inside_diameter_m: float
+    rating_pa: float
+    roughness_m: float | None = None
+    c_factor: float | None = None
+
+
+@dataclass(frozen=True)
+class Outlet:
+    name: str
+    flow_m3s: float
+    min_pressure_m: float
+    chainage_m: float | None = None
+    location: tuple[float, float] | None = None
+    kind: str = "outlet"
+
+
+@dataclass(frozen=True)
+class Tank:
+    name: str
+    chainage_m: float
+    water_above_ground_m: float = 1.0
+
+
+@dataclass(frozen=True)
+class Fitting:
+    name: str
+    chainage_m: float
+    k: float
+
+
+@dataclass(frozen=True)
+class Criteria:
+    """Design criteria; each default's source is given in docs/scenario.md."""
+
+    friction: str = "colebrook"
+    temperature_c: float = 20.0
+    cover_m: float = 0.8
+    entrance_k: float = 0.5
+    velocity_min_mps: float = 0.3
+    velocity_max_mps: float = 3.0
+    min_line_pressure_m: float = 2.0
+    snap_tolerance_m: float = 50.0
+
+
+@dataclass(frozen=True)
+class Scenario:
+    path: Path
+    project: Project
+    terrain: Terrain | None
+    route: RouteSpec
+    source: Source
+    pipe: Pipe
+    outlets: tuple[Outlet, ...]
+    tanks: tuple[Tank, ...] = field(default=())
+    fittings: tuple[Fitting, ...] = field(default=())
+    criteria: Criteria = field(default_factory=Criteria)
+
+
+# ---------------------------------------------------------------------------
+# schema: section -> key -> (type, required, default); checked generically
+
+_NUM = (int, float)
+SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
+    "project": {"name": (str, True), "reference": (str, False), "engineer": (str, False),
+                "notes": (str, False)},
+    "terrain": {"dem": ((str, list), True), "vertical_datum": (str, False),
+                "max_void_m": (_NUM, False)},
+    "route": {"file": (str, True), "spacing_m": (_NUM, False), "crs": (str, False)},
+    "source": {"name": (str, False), "top_water_level_m": (_NUM, False),
+               "low_water_level_m": (_NUM, False), "top_water_above_ground_m": (_NUM, False),
+               "low_water_above_ground_m": (_NUM, False), "yield_lps": (_NUM, False)},
+    "pipe": {"material": (str, True), "label": (str, False), "inside_diameter_mm": (_NUM, True),
+             "roughness_mm": (_NUM, False), "hazen_williams_c": (_NUM, False),
+             "rating_bar": (_NUM, True)},
+    "criteria": {"friction": (str, False), "temperature_c": (_NUM, False),
+                 "cover_m": (_NUM, False), "entrance_k": (_NUM, False),
+                 "velocity_min_mps": (_NUM, False), "velocity_max_mps": (_NUM, False),
+                 "min_line_pressure_m": (_NUM, False), "snap_tolerance_m": (_NUM, False)},
+}
+TABLE_ARRAYS = {
+    "outlets": {"name": (str, True), "flow_lps": (_NUM, True), "min_pressure_m": (_NUM, False),
+                "chainage_m": (_NUM, False), "location": (list, False), "kind": (str, False)},
+    "break_pressure_tanks": {"name": (str, False), "chainage_m": (_NUM, True),
+                             "water_above_ground_m": (_NUM, False)},
+    "fittings": {"name": (str, False), "chainage_m": (_NUM, True), "k": (_NUM, True)},
+}
+REQUIRED_SECTIONS = ("project", "route", "source", "pipe")
+#: Default minimum residual pressure at an outlet [m]: Akvopedia "Public standpost"
+#: (after WHO/IRC) gives 10-30 m at standposts.
+DEFAULT_OUTLET_MIN_PRESSURE_M = 10.0
+
+
+class _Problems(list):
+    def add(self, key: str, message: str) -> None:
+        self.append(f"{key}: {message}")
+
+
+def _type_name(t) -> str:
+    if t == _NUM:
+        return "a number"
+    if isinstance(t, tuple):
+        return " or ".join(_type_name(x) for x in t)
+    return {str: "a text string", list: "a list", bool: "true or false"}.get(t, t.__name__)
+
+
+def _check_table(table: dict, schema: dict, prefix: str, problems: _Problems) -> dict:
+    out = {}
+    for key, value in table.items():
+        if key not in schema:
+            close = difflib.get_close_matches(key, schema, n=1)
+            hint = f"; did you mean {close[0]!r}?" if close else \
+                f"; known keys: {', '.join(sorted(schema))}"
+            problems.add(f"{prefix}.{key}", f"unknown key{hint}")
+            continue
+        typ = schema[key][0]
+        if isinstance(value, bool) or not isinstance(value, typ):
+            problems.add(f"{prefix}.{key}", f"expected {_type_name(typ)}, got {value!r}")
+            continue
+        out[key] = value
+    for key, (_, required) in schema.items():
+        if required and key not in table:
+            problems.add(f"{prefix}.{key}", "missing (required)")
+    return out
+
+
+def _positive(problems, key, value, *, allow_zero=False):
+    if value is None:
+        return
+    if value < 0 or (value == 0 and not allow_zero):
+        problems.add(key, f"must be {'>= 0' if allow_zero else '> 0'}, got {value!r}")
+
+
+def load_scenario(path: str | Path) -> Scenario:
+    """Read and validate a scenario TOML file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The scenario file; relative paths inside it are relative to its folder.
+
+    Returns
+    -------
+    Scenario
+        With every quantity in SI units.
+
+    Raises
+    ------
+    InputFileError
+        If the file is missing or not valid TOML.
+    InputError
+        Listing every problem found, each with its key.
+    """
+    p = Path(path)
+    if not p.is_file():
+        raise InputFileError(f"{p}: scenario file not found")
+    try:
+        data = tomllib.loads(p.read_text(encoding="utf-8"))
+    except tomllib.TOMLDecodeError as exc:
+        raise InputFileError(f"{p}: not valid TOML ({exc})") from None
+    except UnicodeDecodeError as exc:
+        raise InputFileError(f"{p}: not a UTF-8 text file ({exc})") from None
+    return scenario_from_dict(data, p)
+
+
+def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
+    """Validate parsed TOML data and build a :class:`Scenario` (see :func:`load_scenario`)."""
+    problems = _Problems()
+    base = path.parent
+    known = set(SCHEMA) | set(TABLE_ARRAYS)
+    for key in data:
+        if key not in known:
+            close = difflib.get_close_matches(key, known, n=1)
+            hint = f"; did you mean [{close[0]}]?" if close else ""
+            problems.add(key, f"unknown section{hint}")
+    for name in REQUIRED_SECTIONS:
+        if name not in data:
+            problems.add(name, "missing section (required)")
+    sec = {}
+    for name, schema in SCHEMA.items():
+        table = data.get(name, {})
+        if not isinstance(table, dict):
+            problems.add(name, "must be a table ([" + name + "])")
+            table = {}
+        sec[name] = _check_table(table, schema, name, problems) if name in data else {}
+    arrays = {}
+    for name, schema in TABLE_ARRAYS.items():
+        items = data.get(name, [])
+        if not isinstance(items, list) or not all(isinstance(i, dict) for i in items):
+            problems.add(name, f"must be an array of tables ([[{name}]])")
+            items = []
+        arrays[name] = [_check_table(item, schema, f"{name}[{i + 1}]", problems)
+                        for i, item in enumerate(items)]
+
+    # -- terrain and route
+    terrain = None
+    t = sec["terrain"]
+    if "dem" in t:
+        dems = t["dem"] if isinstance(t["dem"], list) else [t["dem"]]
+        if not dems or not all(isinstance(d, str) for d in dems):
+            problems.add("terrain.dem", "expected a file name or a list of file names")
+            dems = []
+        terrain = Terrain(dem=tuple(base / d for d in dems),
+                          vertical_datum=t.get("vertical_datum", "as the DEM (not stated)"),
+                          max_void_m=float(t.get("max_void_m", 150.0)))
+        _positive(problems, "terrain.max_void_m", t.get("max_void_m"), allow_zero=True)
+    r = sec["route"]
+    route = RouteSpec(file=base / r.get("file", ""), spacing_m=r.get("spacing_m"), crs=r.get("crs"))
+    _positive(problems, "route.spacing_m", r.get("spacing_m"))
+    if "file" in r and not route.file.suffix.lower() == ".csv" and terrain is None:
+        problems.add("terrain.dem", f"needed for the route {r['file']!r}: only a CSV survey "
+                     "carries its own elevations")
+
+    # -- source
+    s = sec["source"]
+    for level in ("top", "low"):
+        absolute, relative = f"{level}_water_level_m", f"{level}_water_above_ground_m"
+        if (absolute in s) == (relative in s) and "source" in data:
+            problems.add(f"source.{absolute}", f"give exactly one of {absolute} (elevation) "
+                         f"or {relative} (height above the ground at the route start)")
+    if "top_water_level_m" in s and "low_water_level_m" in s and \
+            s["low_water_level_m"] > s["top_water_level_m"]:
+        problems.add("source.low_water_level_m", "must not be above top_water_level_m")
+    if "top_water_above_ground_m" in s and "low_water_above_ground_m" in s and \
+            s["low_water_above_ground_m"] > s["top_water_above_ground_m"]:
+        problems.add("source.low_water_above_ground_m", "must not be above top_water_above_ground_m")
+    _positive(problems, "source.yield_lps", s.get("yield_lps"))
+    source = Source(
+        name=s.get("name", "source"), top_level_m=s.get("top_water_level_m"),
+        low_level_m=s.get("low_water_level_m"), top_above_ground_m=s.get("top_water_above_ground_m"),
+        low_above_ground_m=s.get("low_water_above_ground_m"),
+        yield_m3s=s["yield_lps"] * LPS if "yield_lps" in s else None)
+
+    # -- criteria
+    c = sec["criteria"]
+    criteria = Criteria(**{k: (float(v) if not isinstance(v, str) else v) for k, v in c.items()})
+    if criteria.friction not in FRICTION_METHODS:
+        problems.add("criteria.friction", f"unknown method {criteria.friction!r}; choose one of "
+                     f"{', '.join(FRICTION_METHODS)}")
+    if not 0 <= criteria.temperature_c <= 45:
+        problems.add("criteria.temperature_c", f"expected 0 to 45 degC for a water supply, "
+                     f"got {criteria.temperature_c:g}")
+    for key in ("cover_m", "entrance_k", "velocity_min_mps", "snap_tolerance_m"):
+        _positive(problems, f"criteria.{key}", getattr(criteria, key), allow_zero=True)
+    _positive(problems, "criteria.velocity_max_mps", criteria.velocity_max_mps)
+    if criteria.velocity_min_mps >= criteria.velocity_max_mps:
+        problems.add("criteria.velocity_min_mps", "must be below velocity_max_mps")
+
+    # -- pipe
+    pp = sec["pipe"]
+    _positive(problems, "pipe.inside_diameter_mm", pp.get("inside_diameter_mm"))
+    _positive(problems, "pipe.rating_bar", pp.get("rating_bar"))
+    _positive(problems, "pipe.roughness_mm", pp.get("roughness_mm"), allow_zero=True)
+    _positive(problems, "pipe.hazen_williams_c", pp.get("hazen_williams_c"))
+    if "pipe" in data:
+        if criteria.friction == "colebrook" and "roughness_mm" not in pp:
+            problems.add("pipe.roughness_mm", "needed for criteria.friction = 'colebrook' "
+                         "(e.g. 0.007 for PE or PVC, 0.15 for galvanised steel)")
+        if criteria.friction == "hazen-williams" and "hazen_williams_c" not in pp:
+            problems.add("pipe.hazen_williams_c", "needed for criteria.friction = "
+                         "'hazen-williams' (e.g. 150 for PE or PVC)")
+    pipe = Pipe(material=pp.get("material", ""), label=pp.get("label", ""),
+                inside_diameter_m=pp.get("inside_diameter_mm", 0.0) * MM,
+                rating_pa=pp.get("rating_bar", 0.0) * BAR,
+                roughness_m=pp["roughness_mm"] * MM if "roughness_mm" in pp else None,
+                c_factor=pp.get("hazen_williams_c"))
+
+    # -- outlets, tanks, fittings
+    outlets = []
+    for i, o in enumerate(arrays["outlets"], start=1):
+        key = f"outlets[{i}]"
+        if ("chainage_m" in o) == ("location" in o):
+            problems.add(key, "give exactly one of chainage_m or location = [lon, lat]")
+        loc = o.get("location")
+        if loc is not None and (len(loc) != 2 or not all(isinstance(v, _NUM) and not
+                                                         isinstance(v, bool) for v in loc)):
+            problems.add(f"{key}.location", f"expected [longitude, latitude], got {loc!r}")
+            loc = None
+        _positive(problems, f"{key}.flow_lps", o.get("flow_lps"))
+        _positive(problems, f"{key}.chainage_m", o.get("chainage_m"), allow_zero=True)
+        outlets.append(Outlet(
+            name=o.get("name", f"outlet {i}"), flow_m3s=o.get("flow_lps", 0.0) * LPS,
+            min_pressure_m=float(o.get("min_pressure_m", DEFAULT_OUTLET_MIN_PRESSURE_M)),
+            chainage_m=o.get("chainage_m"), location=tuple(loc) if loc else None,
+            kind=o.get("kind", "outlet")))
+    if "outlets" in data and not outlets:
+        problems.add("outlets", "at least one outlet is needed")
+    if "outlets" not in data:
+        problems.add("outlets", "missing: add at least one [[outlets]] table")
+    tanks = []
+    for i, tk in enumerate(arrays["break_pressure_tanks"], start=1):
+        _positive(problems, f"break_pressure_tanks[{i}].chainage_m", tk.get("chainage_m"))
+        _positive(problems, f"break_pressure_tanks[{i}].water_above_ground_m",
+                  tk.get("water_above_ground_m"), allow_zero=True)
+        tanks.append(Tank(name=tk.get("name", f"break-pressure tank {i}"),
+                          chainage_m=float(tk.get("chainage_m", 0.0)),
+                          water_above_ground_m=float(tk.get("water_above_ground_m", 1.0))))
+    chain = [tk.chainage_m for tk in tanks]
+    if chain != sorted(chain) or len(set(chain)) != len(chain):
+        problems.add("break_pressure_tanks", "list the tanks in increasing chainage, one per place")
+    fittings = []
+    for i, f in enumerate(arrays["fittings"], start=1):
+        _positive(problems, f"fittings[{i}].k", f.get("k"), allow_zero=True)
+        _positive(problems, f"fittings[{i}].chainage_m", f.get("chainage_m"), allow_zero=True)
+        fittings.append(Fitting(name=f.get("name", f"fitting {i}"),
+                                chainage_m=float(f.get("chainage_m", 0.0)), k=float(f.get("k", 0.0))))
+
+    if problems:
+        listing = "\n  - ".join(problems)
+        raise InputError(f"{path}: {len(problems)} problem(s) in the scenario:\n  - {listing}")
+    p = sec["project"]
+    return Scenario(
+        path=path, project=Project(name=p["name"], reference=p.get("reference", ""),
+                                   engineer=p.get("engineer", ""), notes=p.get("notes", "")),
+        terrain=terrain, route=route, source=source, pipe=pipe, outlets=tuple(outlets),
+        tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria)
