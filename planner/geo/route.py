@@ -149,6 +149,9 @@ def _read_vector(p: Path, kind: str) -> Route:
         try:
             frame = pyogrio.read_dataframe(p, layer=layer)
         except Exception as exc:
+            if "point array must contain" in str(exc):
+                raise InputFileError(f"{p}: a line has fewer than two distinct points; draw or "
+                                     "record at least a start and an end") from None
             raise InputFileError(f"{p}: cannot read layer {layer!r} ({exc})") from None
         parts = [g for g in frame.geometry if g is not None and not g.is_empty]
         if parts:

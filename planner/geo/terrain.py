@@ -169,12 +169,16 @@ class Dem:
         from rasterio.merge import merge
 
         rx, ry = self.resolution
+        t0 = self._datasets[0].transform      # tiles are assumed to share its pixel grid
         out = np.full(x.shape, np.nan)
         for i, (px, py) in enumerate(zip(x, y)):
-            bounds = (px - 2 * rx, py - 2 * ry, px + 2 * rx, py + 2 * ry)
+            c = np.floor((px - t0.c) / rx)
+            r = np.floor((t0.f - py) / ry)
+            bounds = (t0.c + (c - 2) * rx, t0.f - (r + 3) * ry,
+                      t0.c + (c + 3) * rx, t0.f - (r - 2) * ry)
             mosaic, transform = merge(self._datasets, bounds=bounds, res=(rx, ry),
                                       nodata=np.nan, dtype="float64")
-            cols, rows = ~transform * (np.array([px]), np.array([py]))
+            cols, rows = ~transform @ (np.array([px]), np.array([py]))
             out[i] = _bilinear(mosaic[0], cols - 0.5, rows - 0.5)[0]
         return out
 
@@ -207,7 +211,7 @@ def _sample_blocks(ds, x: NDArray, y: NDArray, *, clamp: bool = False) -> _Sampl
     from rasterio.windows import Window
 
     h, w = ds.height, ds.width
-    cols, rows = ~ds.transform * (x, y)
+    cols, rows = ~ds.transform @ (x, y)
     finite = np.isfinite(cols) & np.isfinite(rows)
     inside = finite & (cols >= 0) & (cols <= w) & (rows >= 0) & (rows <= h)
     cf, rf = cols - 0.5, rows - 0.5
