@@ -1,9 +1,11 @@
 """The public Python API of gravplan.
 
->>> from planner import api                          # doctest: +SKIP
->>> sc = api.load_scenario("demo_terrain/scenario.toml")
->>> plan = api.plan(sc)
->>> api.write_outputs(plan, "outputs/demo")
+Example (from the repository root)::
+
+    from planner import api
+    sc = api.load_scenario("demo_terrain/scenario.toml")
+    plan = api.plan(sc)
+    api.write_outputs(plan, "outputs/demo")
 """
 
 from __future__ import annotations

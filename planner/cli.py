@@ -164,6 +164,10 @@ def demo(out):
     """Plan the bundled invented demo line and write its results.
 
     Generates the demo terrain first if it is not there yet.
+
+    \b
+    Example:
+      gravplan demo --out outputs/demo
     """
     if not DEMO_SCENARIO.is_file():
         raise _Reported(f"the demo scenario is not installed ({DEMO_SCENARIO}); run gravplan "

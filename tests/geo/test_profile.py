@@ -97,3 +97,11 @@ def test_bad_arguments(plane_dem):
         sample_profile(route, plane_dem, cover_m=-1)
     with pytest.raises(InputError, match="spacing"):
         sample_profile(route, plane_dem, spacing_m=-5)
+
+
+def test_public_api_entry_point(plane_dem):
+    import planner
+
+    route = utm_line((E0 + 100, N0 + 500), (E0 + 300, N0 + 500))
+    p = planner.sample_profile(route, plane_dem, spacing_m=None, cover_m=0.8)
+    assert p.n == 21 and p.cover_m == 0.8

@@ -1,0 +1,88 @@
+"""Scenario loading and validation."""
+
+import pytest
+
+from planner.errors import InputError, InputFileError
+from planner.scenario import load_scenario
+from planner.units import LPS
+from tests.conftest import ROOT
+
+GOOD = """
+[project]
+name = "test line"
+[terrain]
+dem = "dem.tif"
+[route]
+file = "route.geojson"
+[source]
+top_water_above_ground_m = 1.0
+low_water_above_ground_m = 0.5
+yield_lps = 2
+[pipe]
+material = "PE100"
+inside_diameter_mm = 61.4
+roughness_mm = 0.007
+rating_bar = 10
+[[outlets]]
+name = "tap"
+chainage_m = 100
+flow_lps = 0.5
+"""
+
+
+def write(tmp_path, text):
+    p = tmp_path / "s.toml"
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def test_demo_scenario_loads_in_si_units():
+    sc = load_scenario(ROOT / "demo_terrain" / "scenario.toml")
+    assert sc.pipe.inside_diameter_m == pytest.approx(0.0614)
+    assert sc.pipe.rating_pa == pytest.approx(16e5)
+    assert sc.outlets[0].flow_m3s == pytest.approx(1.7 * LPS)
+    assert sc.terrain.dem[0] == ROOT / "demo_terrain" / "dem.tif"     # relative to the file
+    assert [t.chainage_m for t in sc.tanks] == [2000, 3400]
+
+
+def test_defaults(tmp_path):
+    sc = load_scenario(write(tmp_path, GOOD))
+    assert sc.criteria.friction == "colebrook" and sc.criteria.cover_m == 0.8
+    assert sc.outlets[0].min_pressure_m == 10.0
+
+
+def test_every_problem_is_reported_with_its_key(tmp_path):
+    bad = GOOD.replace('rating_bar = 10', 'rating_bar = -1\ncolour = "blue"') \
+              .replace("flow_lps = 0.5", "flow_lps = 0") \
+              .replace("[route]", "[criteria]\nfriction = 'manning'\ntemperature_c = 80\n[route]")
+    with pytest.raises(InputError) as info:
+        load_scenario(write(tmp_path, bad))
+    text = str(info.value)
+    for expected in ["pipe.rating_bar: must be > 0", "pipe.colour: unknown key",
+                     "outlets[1].flow_lps: must be > 0",
+                     "criteria.friction: unknown method 'manning'; choose one of colebrook, "
+                     "hazen-williams", "criteria.temperature_c"]:
+        assert expected in text
+    assert "5 problem(s)" in text
+
+
+@pytest.mark.parametrize("edit, match", [
+    (("[pipe]", "[pipes]"), r"pipes: unknown section; did you mean \[pipe\]"),
+    (("inside_diameter_mm", "inside_diametre_mm"), "did you mean 'inside_diameter_mm'"),
+    (("low_water_above_ground_m = 0.5", "low_water_above_ground_m = 1.5"), "must not be above"),
+    (("chainage_m = 100", "location = [36.8]"), r"location: expected \[longitude, latitude\]"),
+    (("chainage_m = 100", ""), "exactly one of chainage_m or location"),
+    (('dem = "dem.tif"', ""), r"terrain.dem: missing"),
+    (("roughness_mm = 0.007", ""), "roughness_mm: needed"),
+    (('name = "test line"', "name = 3"), "project.name: expected a text string, got 3"),
+])
+def test_single_problems(tmp_path, edit, match):
+    with pytest.raises(InputError, match=match):
+        load_scenario(write(tmp_path, GOOD.replace(*edit)))
+
+
+def test_bad_files(tmp_path):
+    with pytest.raises(InputFileError, match="not found"):
+        load_scenario(tmp_path / "nope.toml")
+    with pytest.raises(InputFileError, match="not valid TOML.*line 2"):
+        load_scenario(write(tmp_path, "[project]\nname = \n"))
