@@ -234,22 +234,26 @@ def _sample_blocks(ds, x: NDArray, y: NDArray, *, clamp: bool = False) -> _Sampl
     block_ids = np.unique(np.concatenate([
         (r0 + dr) // bh * nbj + (c0 + dc) // bw for dr in (0, 1) for dc in (0, 1)]))
     lut = np.full(-(-h // bh) * nbj, -1, dtype=np.int64)
-    stack = np.full((block_ids.size, bh, bw), np.nan, dtype=np.float64)
+    dtype = np.float64 if ds.dtypes[0] == "float64" else np.float32
+    stack = np.empty((block_ids.size, bh, bw), dtype=dtype)
     nodata = ds.nodata
-    scale, offset = ds.scales[0], ds.offsets[0]
     for k, bid in enumerate(block_ids):
         bi, bj = divmod(int(bid), nbj)
         win = Window(bj * bw, bi * bh, min(bw, w - bj * bw), min(bh, h - bi * bh))
-        block = ds.read(1, window=win, masked=True).astype(np.float64)
-        stack[k, : int(win.height), : int(win.width)] = block.filled(np.nan)
+        if win.width == bw and win.height == bh:
+            ds.read(1, window=win, out=stack[k])
+        else:                                   # a partial block at the right or bottom edge
+            stack[k] = np.nan
+            stack[k, : int(win.height), : int(win.width)] = ds.read(1, window=win, out_dtype=dtype)
         lut[bid] = k
     if nodata is not None and not np.isnan(nodata):
-        stack[stack == nodata] = np.nan
+        stack[stack == dtype(nodata)] = np.nan
+    scale, offset = ds.scales[0], ds.offsets[0]
     if scale != 1.0 or offset != 0.0:
         stack = stack * scale + offset
 
     def val(r, c):
-        return stack[lut[r // bh * nbj + c // bw], r % bh, c % bw]
+        return stack[lut[r // bh * nbj + c // bw], r % bh, c % bw].astype(np.float64)
 
     value[use] = (val(r0, c0) * (1 - fx) * (1 - fy) + val(r0, c0 + 1) * fx * (1 - fy)
                   + val(r0 + 1, c0) * (1 - fx) * fy + val(r0 + 1, c0 + 1) * fx * fy)

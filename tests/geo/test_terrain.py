@@ -90,3 +90,23 @@ def test_dem_without_crs_is_refused(tmp_path):
     path = write_raster(tmp_path / "nocrs.tif", random_dem(20, 20), crs=None)
     with pytest.raises(TerrainError, match="no coordinate reference system"):
         open_dem(path)
+
+
+def test_integer_dem_with_nodata(tmp_path):
+    # SRTM-style int16 tiles with nodata -32768
+    import rasterio
+    from rasterio.transform import from_origin
+
+    z = (np.arange(100 * 100).reshape(100, 100) % 997).astype(np.int16)
+    z[40, 40] = -32768
+    path = tmp_path / "i16.tif"
+    with rasterio.open(path, "w", driver="GTiff", width=100, height=100, count=1, dtype="int16",
+                       crs="EPSG:32737", transform=from_origin(E0, N0 + 1000, CELL, CELL),
+                       nodata=-32768, tiled=True, blockxsize=64, blockysize=64) as ds:
+        ds.write(z, 1)
+    xs, ys = interior_points(z.astype(np.float32), 2000, top=N0 + 1000)
+    with open_dem(path) as dem:
+        got, _ = dem.sample(xs, ys)
+    ref = reference(np.where(z == -32768, np.nan, z).astype(np.float64), xs, ys, top=N0 + 1000)
+    np.testing.assert_allclose(got, ref, atol=1e-7)       # NaN where a neighbour is void
+    assert np.isnan(got).any() and np.isfinite(got).sum() > 1900
