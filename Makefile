@@ -6,7 +6,7 @@ VENV   ?= .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test bench clean
+.PHONY: demo test bench clean chromium
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -20,7 +20,16 @@ demo_terrain/dem.tif: demo_terrain/generate.py $(STAMP)
 demo: $(STAMP) demo_terrain/dem.tif
 	$(BIN)/gravplan demo --out outputs/demo
 
-test: $(STAMP)
+# the browser tests need Debian's Chromium; as root it is installed when missing
+chromium:
+	@command -v chromium >/dev/null 2>&1 || { \
+	  if [ "$$(id -u)" = 0 ]; then \
+	    echo "installing Debian's chromium for the browser tests"; \
+	    DEBIAN_FRONTEND=noninteractive apt-get update -qq && \
+	    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; \
+	  else echo "the browser tests need chromium: sudo apt-get install chromium"; exit 1; fi; }
+
+test: $(STAMP) chromium
 	$(BIN)/python -m pytest -q
 
 bench: $(STAMP)

@@ -31,7 +31,7 @@ __all__ = ["load_scenario", "read_route", "sample_profile", "profile_from_survey
 plan = plan_scenario
 
 
-def _terrain_window(plan_: Plan, margin_m: float = 400.0):
+def _terrain_window(plan_: Plan, margin_m: float = 1500.0):
     """A decimated DEM window around the route, for the map's hillshade."""
     sc, prof = plan_.scenario, plan_.profile
     if sc.terrain is None or not np.all(np.isfinite(prof.lon)):

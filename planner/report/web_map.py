@@ -1,7 +1,9 @@
 """The interactive map (folium/Leaflet): route over a hillshade, coloured by pressure.
 
-Every user-supplied text shown in the page is HTML-escaped.  The page still loads
-Leaflet from its CDN; a fully offline page is planned (see docs/architecture.md).
+Every user-supplied text shown in the page is HTML-escaped.  The page is
+self-contained: Leaflet and d3 are inlined from the vendored copies (see
+``offline.py``), there is no tile layer, and the terrain is a hillshade computed from
+the DEM, so it works with no internet.
 """
 
 from __future__ import annotations
@@ -13,6 +15,7 @@ import numpy as np
 
 from ..design.plan import Plan
 from .files import write_text
+from .offline import make_offline
 
 #: Most points drawn for the route line; the profile keeps them all.
 MAX_MAP_POINTS = 5000
@@ -59,8 +62,9 @@ def _overlay(grid: np.ndarray, transform, crs):
     reproject(grid, merc, src_transform=transform, src_crs=crs, dst_transform=dst_t,
               dst_crs=dst_crs, resampling=Resampling.bilinear, src_nodata=np.nan,
               dst_nodata=np.nan)
-    shade = hillshade(merc, abs(dst_t.a), abs(dst_t.e))
-    grey = (80 + 175 * np.nan_to_num(shade, nan=1.0)).astype(np.uint8)
+    # relief exaggerated 3x so that gentle slopes still read on the map
+    shade = hillshade(3.0 * merc, abs(dst_t.a), abs(dst_t.e))
+    grey = (40 + 215 * np.nan_to_num(shade, nan=1.0)).astype(np.uint8)
     rgba = np.dstack([grey, grey, grey, np.where(np.isfinite(merc), 255, 0).astype(np.uint8)])
     l, b, r, t = transform_bounds(dst_crs, "EPSG:4326", dst_t.c, dst_t.f + dst_t.e * dh,
                                   dst_t.c + dst_t.a * dw, dst_t.f)
@@ -105,31 +109,30 @@ def build_map(plan: Plan, *, terrain=None):
     marks = folium.FeatureGroup(name="source, tanks, outlets")
     sc = plan.scenario
     esc = html.escape
-    folium.Marker([float(prof.lat[0]), float(prof.lon[0])],
-                  popup=folium.Popup(f"<b>{esc(sc.source.name)}</b><br>top water level "
-                                     f"{plan.source_top_level_m:.1f} m<br>low water level "
-                                     f"{plan.source_low_level_m:.1f} m", max_width=300),
-                  tooltip=esc(sc.source.name),
-                  icon=folium.Icon(color="blue", icon="tint", prefix="fa")).add_to(marks)
+
+    def marker(i, label, popup, colour, radius=8):
+        folium.CircleMarker([float(prof.lat[i]), float(prof.lon[i])], radius=radius,
+                            color="black", weight=2, fill=True, fill_color=colour,
+                            fill_opacity=0.95, tooltip=esc(label),
+                            popup=folium.Popup(popup, max_width=320),
+                            class_name="plan-marker").add_to(marks)
+
+    marker(0, sc.source.name, f"<b>{esc(sc.source.name)}</b><br>top water level "
+           f"{plan.source_top_level_m:.1f} m<br>low water level {plan.source_low_level_m:.1f} m",
+           "#1f4e9c", 10)
     for t in plan.tanks:
-        folium.Marker([float(prof.lat[t.index]), float(prof.lon[t.index])],
-                      popup=folium.Popup(f"<b>{esc(t.name)}</b><br>chainage {t.chainage_m:,.0f} m"
-                                         f"<br>water level {t.water_level_m:.1f} m<br>head "
-                                         f"dissipated {t.dissipated_m:.1f} m", max_width=300),
-                      tooltip=esc(t.name),
-                      icon=folium.Icon(color="gray", icon="square", prefix="fa")).add_to(marks)
+        marker(t.index, t.name, f"<b>{esc(t.name)}</b> (break-pressure tank)<br>chainage "
+               f"{t.chainage_m:,.0f} m<br>water level {t.water_level_m:.1f} m<br>head "
+               f"dissipated {t.dissipated_m:.1f} m", "#ffffff")
     for o in plan.outlets:
-        folium.Marker([float(prof.lat[o.index]), float(prof.lon[o.index])],
-                      popup=folium.Popup(f"<b>{esc(o.name)}</b> ({esc(o.kind)})<br>chainage "
-                                         f"{o.chainage_m:,.0f} m<br>flow {o.flow_m3s * 1e3:.2f} L/s"
-                                         f"<br>residual pressure {o.pressure_head_m:.1f} m (min "
-                                         f"{o.min_pressure_m:g} m)", max_width=300),
-                      tooltip=esc(o.name),
-                      icon=folium.Icon(color="green" if o.ok else "red", icon="faucet",
-                                       prefix="fa")).add_to(marks)
+        marker(o.index, o.name, f"<b>{esc(o.name)}</b> ({esc(o.kind)})<br>chainage "
+               f"{o.chainage_m:,.0f} m<br>flow {o.flow_m3s * 1e3:.2f} L/s<br>residual pressure "
+               f"{o.pressure_head_m:.1f} m (min {o.min_pressure_m:g} m)",
+               "#2e8b57" if o.ok else "#c0392b")
     marks.add_to(m)
     folium.LayerControl(position="bottomright", collapsed=False).add_to(m)
-    m.fit_bounds([[float(lat.min()), float(lon.min())], [float(lat.max()), float(lon.max())]])
+    m.fit_bounds([[float(lat.min()), float(lon.min())], [float(lat.max()), float(lon.max())]],
+                 padding=(40, 40))
     title = (f"<div style='position:fixed;top:10px;left:60px;z-index:1000;background:white;"
              f"padding:6px 10px;border:1px solid #888;font:13px sans-serif;max-width:60%'>"
              f"<b>{esc(sc.project.name)}</b><br>Planning aid only: confirm levels in the field; "
@@ -141,4 +144,4 @@ def build_map(plan: Plan, *, terrain=None):
 def write_map(plan: Plan, path: str | Path, *, terrain=None) -> Path:
     """Write map.html atomically."""
     m = build_map(plan, terrain=terrain)
-    return write_text(path, m.get_root().render())
+    return write_text(path, make_offline(m.get_root().render()))
