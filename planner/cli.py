@@ -35,6 +35,8 @@ def _run(fn):
 def _print_warnings(caught):
     seen = set()
     for w in caught:
+        if issubclass(w.category, (DeprecationWarning, PendingDeprecationWarning)):
+            continue            # a library's note to developers, not to the user
         text = str(w.message)
         if text not in seen:
             seen.add(text)
