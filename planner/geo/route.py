@@ -16,7 +16,7 @@ import numpy as np
 import shapely
 from numpy.typing import NDArray
 from pyproj import CRS, Transformer
-from shapely.geometry import LineString
+from shapely.geometry import LineString, MultiLineString, Point
 
 from ..errors import InputError, InputFileError
 
@@ -174,8 +174,7 @@ def _read_vector(p: Path, kind: str) -> Route:
         kinds = sorted({g.geom_type for g in geoms})
         raise InputFileError(f"{p}: no LineString in the file (found {', '.join(kinds)}); "
                              "a route is a line from the source to the last outlet")
-    merged = shapely.line_merge(shapely.union_all(lines)) if len(lines) > 1 or \
-        lines[0].geom_type == "MultiLineString" else lines[0]
+    merged = _join(lines)
     if merged.geom_type != "LineString":
         n = len(merged.geoms)
         ends = "; ".join(f"part {i + 1} starts at ({part.coords[0][0]:.6f}, {part.coords[0][1]:.6f})"
@@ -192,6 +191,28 @@ def _read_vector(p: Path, kind: str) -> Route:
     if elevations is not None and len(elevations) == len(route.line.coords):
         return Route(line=route.line, source=route.source, gps_elevation_m=elevations)
     return route
+
+
+def _join(lines: list) -> LineString | MultiLineString:
+    """Join line parts end to end into one line, keeping the direction they were drawn in.
+
+    The route runs from the source, so the joined line starts where the first part
+    starts; parts drawn against that direction are turned round.
+    """
+    parts = []
+    for g in lines:
+        parts.extend(g.geoms if g.geom_type == "MultiLineString" else [g])
+    if len(parts) == 1:
+        return parts[0]
+    multi = MultiLineString(parts)
+    merged = shapely.line_merge(multi, directed=True)
+    if merged.geom_type != "LineString":
+        merged = shapely.line_merge(multi)
+    if merged.geom_type == "LineString":
+        start = Point(parts[0].coords[0])
+        if Point(merged.coords[-1]).distance(start) < Point(merged.coords[0]).distance(start):
+            merged = shapely.reverse(merged)
+    return merged
 
 
 def _gpx_elevations(p: Path, layer: str | None) -> NDArray | None:

@@ -116,3 +116,20 @@ def test_bad_files(tmp_path, name, text, match):
     p = tmp_path / name if text is None else write(tmp_path, name, text)
     with pytest.raises(InputFileError, match=match):
         read_route(p)
+
+
+def test_parts_listed_out_of_order_keep_the_drawn_direction(tmp_path):
+    # the route starts where the first part starts; later parts drawn backwards are turned
+    geom = {"type": "MultiLineString", "coordinates": [[LINE[2], LINE[1]], LINE[:2]]}
+    r = read_route(write(tmp_path, "r.geojson", json.dumps(geom)))
+    np.testing.assert_allclose(np.asarray(r.line.coords), LINE[::-1])
+    geom = {"type": "MultiLineString", "coordinates": [LINE[:2], [LINE[2], LINE[1]]]}
+    r = read_route(write(tmp_path, "r2.geojson", json.dumps(geom)))
+    np.testing.assert_allclose(np.asarray(r.line.coords), LINE)
+
+
+def test_self_crossing_route_stays_one_line(tmp_path):
+    coords = [[36.80, -3.50], [36.82, -3.50], [36.82, -3.52], [36.81, -3.49]]
+    r = read_route(write(tmp_path, "r.geojson", json.dumps({"type": "LineString",
+                                                             "coordinates": coords})))
+    np.testing.assert_allclose(np.asarray(r.line.coords), coords)
