@@ -1,0 +1,126 @@
+"""Plans on synthetic terrain: checks fire where they should, inputs are placed right."""
+
+import numpy as np
+import pytest
+
+from planner.design.plan import plan_scenario
+from planner.errors import InputError
+from planner.scenario import load_scenario
+from tests.conftest import E0, N0, lonlat, write_raster
+
+
+def ramp(h=100, w=400, z0=1200.0, fall=0.04, cell=10.0):
+    """Ground falling eastwards by ``fall`` m per m."""
+    u = (np.arange(w) + 0.5) * cell
+    return np.tile(z0 - fall * u, (h, 1))
+
+
+def scenario(tmp_path, *, route="route.geojson", extra="", pipe=None, outlets=None,
+             criteria="", source=None):
+    pipe = pipe or ('material = "PE100"\ninside_diameter_mm = 61.4\nroughness_mm = 0.007\n'
+                    'rating_bar = 16')
+    outlets = outlets or '[[outlets]]\nname = "end"\nchainage_m = 3500\nflow_lps = 2.0\n'
+    source = source or "top_water_above_ground_m = 1.0\nlow_water_above_ground_m = 0.5\nyield_lps = 5"
+    text = f"""
+[project]
+name = "synthetic"
+[terrain]
+dem = "dem.tif"
+[route]
+file = "{route}"
+[source]
+{source}
+[pipe]
+{pipe}
+{outlets}
+{extra}
+[criteria]
+{criteria}
+"""
+    p = tmp_path / "s.toml"
+    p.write_text(text)
+    return p
+
+
+@pytest.fixture
+def ramp_site(tmp_path, write_geojson):
+    write_raster(tmp_path / "dem.tif", ramp(), top=N0 + 1000)
+    write_geojson([(E0 + 100, N0 + 500), (E0 + 3600, N0 + 500)])
+    return tmp_path
+
+
+def test_uniform_ramp_plan(ramp_site):
+    plan = plan_scenario(load_scenario(scenario(ramp_site)))
+    assert plan.profile.length_m == pytest.approx(3500)
+    assert not plan.errors
+    # static pressure at the end is the fall from the overflow level: 3500 m x 0.04 + 1 m + cover
+    assert plan.energy.static_pressure_head[-1] == pytest.approx(140 + 1.0 + 0.8, abs=0.01)
+    assert np.all(np.diff(plan.energy.hgl) < 0)
+
+
+def test_outlet_by_location_is_snapped(ramp_site):
+    lon, lat = lonlat(E0 + 2100, N0 + 530)          # 30 m off the line, at chainage 2000
+    outlets = (f'[[outlets]]\nname = "mid"\nlocation = [{lon}, {lat}]\nflow_lps = 1\n'
+               '[[outlets]]\nname = "end"\nchainage_m = 3500\nflow_lps = 1\n')
+    plan = plan_scenario(load_scenario(scenario(ramp_site, outlets=outlets)))
+    assert plan.outlets[0].chainage_m == pytest.approx(2000, abs=5)
+    far_lon, far_lat = lonlat(E0 + 2100, N0 + 700)
+    far = outlets.replace(f"[{lon}, {lat}]", f"[{far_lon}, {far_lat}]")
+    with pytest.raises(InputError, match="200 m from the line"):
+        plan_scenario(load_scenario(scenario(ramp_site, outlets=far)))
+
+
+def test_over_rating_and_yield_and_outlet_pressure(ramp_site):
+    pipe = 'material = "PE100"\ninside_diameter_mm = 30\nroughness_mm = 0.007\nrating_bar = 10'
+    src = "top_water_above_ground_m = 1.0\nlow_water_above_ground_m = 0.5\nyield_lps = 1"
+    plan = plan_scenario(load_scenario(scenario(ramp_site, pipe=pipe, source=src)))
+    codes = {f.code for f in plan.errors}
+    assert {"over-rating", "yield-exceeded"} <= codes
+    over = next(f for f in plan.errors if f.code == "over-rating")
+    # 10 bar = 102.2 m of head, reached where the pipe is 102.2 m below the overflow level:
+    # (102.2 - 1.0 - 0.8) / 0.04 = 2,510 m
+    assert over.chainage_m == pytest.approx(2510, abs=15)
+
+
+def test_tank_not_reached_and_sub_atmospheric(tmp_path, write_geojson):
+    # a hump in the middle: 60 m higher than the flanks
+    z = ramp()
+    u = (np.arange(400) + 0.5) * 10
+    z += 60 * np.exp(-(((u - 1500) / 300) ** 2))
+    write_raster(tmp_path / "dem.tif", z, top=N0 + 1000)
+    write_geojson([(E0 + 100, N0 + 500), (E0 + 3600, N0 + 500)])
+    plan = plan_scenario(load_scenario(scenario(tmp_path)))
+    sub = [f for f in plan.errors if f.code == "sub-atmospheric"]
+    assert sub and 1000 < sub[0].chainage_m < 1500
+    extra = '[[break_pressure_tanks]]\nchainage_m = 1400\n'
+    plan = plan_scenario(load_scenario(scenario(tmp_path, extra=extra)))
+    assert any(f.code == "tank-not-reached" for f in plan.errors)
+
+
+def test_survey_route_needs_no_dem(tmp_path):
+    (tmp_path / "survey.csv").write_text("chainage,elevation\n0,1500\n400,1470\n800,1460\n"
+                                         "1200,1420\n")
+    text = scenario(tmp_path, route="survey.csv",
+                    outlets='[[outlets]]\nname = "tap"\nchainage_m = 1200\nflow_lps = 0.5\n'
+                    ).read_text().replace('[terrain]\ndem = "dem.tif"\n', "")
+    p = tmp_path / "s.toml"
+    p.write_text(text)
+    plan = plan_scenario(load_scenario(p))
+    assert plan.profile.n == 4
+    assert plan.outlets[0].pressure_head_m < 1500 + 0.5 - 1420
+    assert np.isnan(plan.profile.lon).all()
+
+
+def test_hazen_williams_option(ramp_site):
+    pipe = 'material = "PVC"\ninside_diameter_mm = 61.4\nhazen_williams_c = 150\nrating_bar = 16'
+    plan = plan_scenario(load_scenario(scenario(ramp_site, pipe=pipe,
+                                                criteria='friction = "hazen-williams"')))
+    dw = plan_scenario(load_scenario(scenario(ramp_site)))
+    # both laws agree within a few per cent for smooth plastic pipe near 0.7 m/s
+    assert plan.energy.reaches[0].friction == pytest.approx(dw.energy.reaches[0].friction, rel=0.08)
+
+
+def test_velocity_warning(ramp_site):
+    outlets = '[[outlets]]\nname = "end"\nchainage_m = 3500\nflow_lps = 0.2\n'
+    plan = plan_scenario(load_scenario(scenario(ramp_site, outlets=outlets)))
+    assert any(f.code == "velocity-low" for f in plan.findings)
