@@ -96,8 +96,9 @@ def _report(plan, written):
 
     sc, e = plan.scenario, plan.energy
     click.echo(f"{sc.project.name}")
+    pipe = (sc.pipe.label or sc.pipe.material) if sc.pipe is not None else "designed"
     click.echo(f"  line {plan.profile.length_m:,.0f} m, design flow "
-               f"{plan.total_flow_m3s / LPS:.2f} L/s, pipe {sc.pipe.label or sc.pipe.material}")
+               f"{plan.total_flow_m3s / LPS:.2f} L/s, pipe {pipe}")
     click.echo("  energy balance per reach (m of water head):")
     ch = plan.profile.chainage_m
     for r in e.reaches:
@@ -111,6 +112,24 @@ def _report(plan, written):
         click.echo(f"    [{mark}] {o.name}: chainage {o.chainage_m:,.0f} m, "
                    f"{o.flow_m3s / LPS:.2f} L/s, residual {o.pressure_head_m:.1f} m "
                    f"(min {o.min_pressure_m:g} m)")
+    if plan.stretches and plan.mode == "design":
+        click.echo(f"  pipe ({plan.sizing.method}; cost {plan.pipe_cost:,.0f}, "
+                   f"{plan.sizing.gap * 100:.2g} % above the split-pipe bound "
+                   f"{plan.sizing.lower_bound:,.0f}):")
+        for st in plan.stretches:
+            click.echo(f"    {st.chainage_m:>8,.0f} to {st.chainage_end_m:>8,.0f} m  "
+                       f"{st.option.label:<26} {st.length_m:>8,.1f} m  static max "
+                       f"{st.max_static_head_m:5.1f} m of {st.rating_head_m:5.1f} m")
+    if plan.tanks:
+        click.echo("  break-pressure tanks:")
+        for t in plan.tanks:
+            click.echo(f"    {t.name}: chainage {t.chainage_m:,.0f} m, water level "
+                       f"{t.water_level_m:.1f} m ({t.rule})")
+    if plan.features:
+        click.echo("  air valves and washouts:")
+        for f in plan.features:
+            click.echo(f"    {f.kind.replace('_', ' '):<9} {f.chainage_m:>8,.0f} m  "
+                       f"DN{f.size_mm:<4.0f} {f.rule}")
     if plan.findings:
         click.echo("  findings:")
         for f in plan.findings:

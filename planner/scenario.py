@@ -94,12 +94,45 @@ class Criteria:
 
     friction: str = "colebrook"
     temperature_c: float = 20.0
+    pipe_temperature_c: float | None = None
     cover_m: float = 0.8
     entrance_k: float = 0.5
     velocity_min_mps: float = 0.3
     velocity_max_mps: float = 3.0
     min_line_pressure_m: float = 2.0
     snap_tolerance_m: float = 50.0
+    tank_inlet_head_m: float = 1.0
+    allow_siphon: bool = False
+    siphon_margin_m: float = 2.5
+    valve_closure_s: float = 30.0
+    surge_rating_factor: float = 1.0
+    feature_prominence_m: float = 2.0
+    grade_break: float = 0.05
+    grade_window_m: float = 100.0
+    air_valve_spacing_m: float = 800.0
+    long_ascent_m: float = 500.0
+
+    @property
+    def wall_temperature_c(self) -> float:
+        """Temperature for derating plastic pipe [degC] (defaults to the water's)."""
+        return self.temperature_c if self.pipe_temperature_c is None else self.pipe_temperature_c
+
+
+@dataclass(frozen=True)
+class Design:
+    """What the designer may choose from, and the rules for tanks and sizes."""
+
+    catalogues: tuple[str, ...] = ("pe100",)
+    materials: tuple[str, ...] | None = None
+    min_size_mm: float | None = None
+    max_size_mm: float | None = None
+    one_size_per_reach: bool = False
+    auto_tanks: bool = True
+    max_static_pressure_m: float | None = None
+    tank_water_depth_m: float = 1.0
+    no_tank_zones: tuple[tuple[float, float], ...] = ()
+    split_spacing_m: float | None = 50.0
+    whole_pieces: bool = True
 
 
 @dataclass(frozen=True)
@@ -109,11 +142,12 @@ class Scenario:
     terrain: Terrain | None
     route: RouteSpec
     source: Source
-    pipe: Pipe
+    pipe: Pipe | None
     outlets: tuple[Outlet, ...]
     tanks: tuple[Tank, ...] = field(default=())
     fittings: tuple[Fitting, ...] = field(default=())
     criteria: Criteria = field(default_factory=Criteria)
+    design: Design | None = None
 
 
 # ---------------------------------------------------------------------------
@@ -133,9 +167,21 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
              "roughness_mm": (_NUM, False), "hazen_williams_c": (_NUM, False),
              "rating_bar": (_NUM, True)},
     "criteria": {"friction": (str, False), "temperature_c": (_NUM, False),
+                 "pipe_temperature_c": (_NUM, False),
                  "cover_m": (_NUM, False), "entrance_k": (_NUM, False),
                  "velocity_min_mps": (_NUM, False), "velocity_max_mps": (_NUM, False),
-                 "min_line_pressure_m": (_NUM, False), "snap_tolerance_m": (_NUM, False)},
+                 "min_line_pressure_m": (_NUM, False), "snap_tolerance_m": (_NUM, False),
+                 "tank_inlet_head_m": (_NUM, False), "allow_siphon": (bool, False),
+                 "siphon_margin_m": (_NUM, False), "valve_closure_s": (_NUM, False),
+                 "surge_rating_factor": (_NUM, False), "feature_prominence_m": (_NUM, False),
+                 "grade_break": (_NUM, False), "grade_window_m": (_NUM, False),
+                 "air_valve_spacing_m": (_NUM, False), "long_ascent_m": (_NUM, False)},
+    "design": {"catalogues": (list, False), "materials": (list, False),
+               "min_size_mm": (_NUM, False), "max_size_mm": (_NUM, False),
+               "one_size_per_reach": (bool, False), "auto_tanks": (bool, False),
+               "max_static_pressure_m": (_NUM, False), "tank_water_depth_m": (_NUM, False),
+               "no_tank_zones": (list, False), "split_spacing_m": (_NUM, False),
+               "whole_pieces": (bool, False)},
 }
 TABLE_ARRAYS = {
     "outlets": {"name": (str, True), "flow_lps": (_NUM, True), "min_pressure_m": (_NUM, False),
@@ -144,7 +190,7 @@ TABLE_ARRAYS = {
                              "water_above_ground_m": (_NUM, False)},
     "fittings": {"name": (str, False), "chainage_m": (_NUM, True), "k": (_NUM, True)},
 }
-REQUIRED_SECTIONS = ("project", "route", "source", "pipe")
+REQUIRED_SECTIONS = ("project", "route", "source")
 #: Default minimum residual pressure at an outlet [m]: Akvopedia "Public standpost"
 #: (after WHO/IRC) gives 10-30 m at standposts.
 DEFAULT_OUTLET_MIN_PRESSURE_M = 10.0
@@ -173,7 +219,7 @@ def _check_table(table: dict, schema: dict, prefix: str, problems: _Problems) ->
             problems.add(f"{prefix}.{key}", f"unknown key{hint}")
             continue
         typ = schema[key][0]
-        if isinstance(value, bool) or not isinstance(value, typ):
+        if (isinstance(value, bool) and typ is not bool) or not isinstance(value, typ):
             problems.add(f"{prefix}.{key}", f"expected {_type_name(typ)}, got {value!r}")
             continue
         out[key] = value
@@ -292,16 +338,23 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
 
     # -- criteria
     c = sec["criteria"]
-    criteria = Criteria(**{k: (float(v) if not isinstance(v, str) else v) for k, v in c.items()})
+    criteria = Criteria(**{k: (float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
+                               else v) for k, v in c.items()})
     if criteria.friction not in FRICTION_METHODS:
         problems.add("criteria.friction", f"unknown method {criteria.friction!r}; choose one of "
                      f"{', '.join(FRICTION_METHODS)}")
     if not 0 <= criteria.temperature_c <= 45:
         problems.add("criteria.temperature_c", f"expected 0 to 45 degC for a water supply, "
                      f"got {criteria.temperature_c:g}")
-    for key in ("cover_m", "entrance_k", "velocity_min_mps", "snap_tolerance_m"):
+    for key in ("cover_m", "entrance_k", "velocity_min_mps", "snap_tolerance_m",
+                "tank_inlet_head_m", "siphon_margin_m", "feature_prominence_m", "grade_break"):
         _positive(problems, f"criteria.{key}", getattr(criteria, key), allow_zero=True)
-    _positive(problems, "criteria.velocity_max_mps", criteria.velocity_max_mps)
+    for key in ("velocity_max_mps", "valve_closure_s", "surge_rating_factor", "grade_window_m",
+                "air_valve_spacing_m", "long_ascent_m"):
+        _positive(problems, f"criteria.{key}", getattr(criteria, key))
+    if criteria.pipe_temperature_c is not None and not 0 <= criteria.pipe_temperature_c <= 60:
+        problems.add("criteria.pipe_temperature_c", "expected 0 to 60 degC, got "
+                     f"{criteria.pipe_temperature_c:g}")
     if criteria.velocity_min_mps >= criteria.velocity_max_mps:
         problems.add("criteria.velocity_min_mps", "must be below velocity_max_mps")
 
@@ -318,11 +371,20 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
         if criteria.friction == "hazen-williams" and "hazen_williams_c" not in pp:
             problems.add("pipe.hazen_williams_c", "needed for criteria.friction = "
                          "'hazen-williams' (e.g. 150 for PE or PVC)")
-    pipe = Pipe(material=pp.get("material", ""), label=pp.get("label", ""),
-                inside_diameter_m=pp.get("inside_diameter_mm", 0.0) * MM,
-                rating_pa=pp.get("rating_bar", 0.0) * BAR,
-                roughness_m=pp["roughness_mm"] * MM if "roughness_mm" in pp else None,
-                c_factor=pp.get("hazen_williams_c"))
+    pipe = None
+    if "pipe" in data:
+        pipe = Pipe(material=pp.get("material", ""), label=pp.get("label", ""),
+                    inside_diameter_m=pp.get("inside_diameter_mm", 0.0) * MM,
+                    rating_pa=pp.get("rating_bar", 0.0) * BAR,
+                    roughness_m=pp["roughness_mm"] * MM if "roughness_mm" in pp else None,
+                    c_factor=pp.get("hazen_williams_c"))
+    design = _design(sec["design"], problems) if "design" in data else None
+    if "pipe" in data and "design" in data:
+        problems.add("design", "give either [pipe] (check one given pipe) or [design] (let the "
+                     "tool choose sizes and classes), not both")
+    if "pipe" not in data and "design" not in data:
+        problems.add("design", "missing: add [design] (catalogues to choose from) or [pipe] "
+                     "(one given pipe)")
 
     # -- outlets, tanks, fittings
     outlets = []
@@ -372,4 +434,39 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
         path=path, project=Project(name=p["name"], reference=p.get("reference", ""),
                                    engineer=p.get("engineer", ""), notes=p.get("notes", "")),
         terrain=terrain, route=route, source=source, pipe=pipe, outlets=tuple(outlets),
-        tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria)
+        tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria, design=design)
+
+
+def _design(d: dict, problems: _Problems) -> Design:
+    cats = d.get("catalogues", ["pe100"])
+    if not cats or not all(isinstance(c, str) for c in cats):
+        problems.add("design.catalogues", "expected a list of catalogue names or CSV paths, "
+                     "e.g. [\"pe100\", \"pvc-u\"]")
+        cats = ["pe100"]
+    mats = d.get("materials")
+    if mats is not None and not all(isinstance(m, str) for m in mats):
+        problems.add("design.materials", "expected a list of material names, e.g. [\"PE100\"]")
+        mats = None
+    zones = []
+    for i, z in enumerate(d.get("no_tank_zones", []), start=1):
+        if (not isinstance(z, list) or len(z) != 2 or not all(isinstance(v, _NUM) and not
+                                                             isinstance(v, bool) for v in z)
+                or z[0] >= z[1]):
+            problems.add(f"design.no_tank_zones[{i}]", f"expected [from_chainage_m, "
+                         f"to_chainage_m] with from < to, got {z!r}")
+            continue
+        zones.append((float(z[0]), float(z[1])))
+    for key in ("min_size_mm", "max_size_mm", "max_static_pressure_m", "split_spacing_m"):
+        _positive(problems, f"design.{key}", d.get(key))
+    _positive(problems, "design.tank_water_depth_m", d.get("tank_water_depth_m"), allow_zero=True)
+    if d.get("min_size_mm") and d.get("max_size_mm") and d["min_size_mm"] > d["max_size_mm"]:
+        problems.add("design.min_size_mm", "must not be above max_size_mm")
+    return Design(catalogues=tuple(cats), materials=tuple(mats) if mats else None,
+                  min_size_mm=d.get("min_size_mm"), max_size_mm=d.get("max_size_mm"),
+                  one_size_per_reach=bool(d.get("one_size_per_reach", False)),
+                  auto_tanks=bool(d.get("auto_tanks", True)),
+                  max_static_pressure_m=d.get("max_static_pressure_m"),
+                  tank_water_depth_m=float(d.get("tank_water_depth_m", 1.0)),
+                  no_tank_zones=tuple(zones),
+                  split_spacing_m=d.get("split_spacing_m", 50.0),
+                  whole_pieces=bool(d.get("whole_pieces", True)))

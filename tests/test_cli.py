@@ -64,8 +64,8 @@ def test_plan_refuses_to_overwrite(runner, demo_folder, tmp_path):
 
 
 def test_plan_with_design_errors_exits_2_and_keeps_files(runner, demo_folder, tmp_path):
-    text = (demo_folder / "scenario.toml").read_text().replace("inside_diameter_mm = 61.4",
-                                                               "inside_diameter_mm = 30")
+    text = (demo_folder / "scenario_given_pipe.toml").read_text().replace(
+        "inside_diameter_mm = 61.4", "inside_diameter_mm = 30")
     sc = demo_folder / "thin.toml"
     sc.write_text(text)
     res = runner.invoke(main, ["plan", str(sc), "--out", str(tmp_path / "o")])

@@ -21,16 +21,16 @@ from planner.cli import main
 G = 9.80665
 
 
-@pytest.fixture(scope="module")
-def demo_plan(demo_folder, tmp_path_factory):
+@pytest.fixture(scope="module", params=["scenario.toml", "scenario_given_pipe.toml"])
+def demo_plan(request, demo_folder, tmp_path_factory):
     out = tmp_path_factory.mktemp("demo_out")
-    res = CliRunner().invoke(main, ["plan", str(demo_folder / "scenario.toml"), "--out", str(out)])
+    res = CliRunner().invoke(main, ["plan", str(demo_folder / request.param), "--out", str(out)])
     assert res.exit_code == 0, res.output
-    return json.loads((out / "plan.json").read_text()), out, res.output
+    return json.loads((out / "plan.json").read_text()), out, res.output, request.param
 
 
 def test_outputs_exist(demo_plan):
-    _, out, output = demo_plan
+    _, out, output, _ = demo_plan
     for name in ("plan.json", "profile.png", "profile.csv", "map.html"):
         assert (out / name).stat().st_size > 1000
     assert (out / "profile.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
@@ -38,7 +38,7 @@ def test_outputs_exist(demo_plan):
 
 
 def test_ground_resampled_with_scipy(demo_plan, demo_folder):
-    plan, _, _ = demo_plan
+    plan = demo_plan[0]
     pts = plan["points"]
     with rasterio.open(demo_folder / "dem.tif") as ds:
         z = ds.read(1, masked=True).astype(float).filled(np.nan)
@@ -47,9 +47,10 @@ def test_ground_resampled_with_scipy(demo_plan, demo_folder):
     yc = t.f + (np.arange(z.shape[0]) + 0.5) * t.e
     rgi = RegularGridInterpolator((yc[::-1], xc), z[::-1], method="linear")
     ref = rgi(np.column_stack([pts["y"], pts["x"]]))
-    ok = ~np.array(pts["ground_filled"])
+    filled, inserted = np.array(pts["ground_filled"]), np.array(pts["inserted"])
+    ok = ~filled & ~inserted
     np.testing.assert_allclose(np.array(pts["ground_m"])[ok], ref[ok], atol=2e-3)
-    assert np.isnan(ref[~ok]).all() and (~ok).sum() > 0        # the void really is a void
+    assert np.isnan(ref[filled & ~inserted]).all() and filled.sum() > 0   # the void is a void
 
 
 def test_chainage_and_slope_length(demo_plan):
@@ -63,13 +64,19 @@ def test_chainage_and_slope_length(demo_plan):
 
 
 def test_hgl_recomputed_with_fluids_and_iapws(demo_plan):
-    plan, _, _ = demo_plan
+    plan = demo_plan[0]
     pts = plan["points"]
     water = IAPWS95(T=293.15, P=0.101325)
     nu = water.mu / water.rho
-    d = plan["inputs"]["pipe"]["inside_diameter_mm"] / 1000
-    eps = plan["inputs"]["pipe"]["roughness_mm"] / 1000
     ch = np.array(pts["chainage_m"])
+    # each segment's pipe from the stretch that holds it
+    mid = (ch[:-1] + ch[1:]) / 2
+    d = np.empty(mid.size)
+    eps = np.empty(mid.size)
+    for st in plan["stretches"]:
+        on = (mid >= st["from_chainage_m"] - 1e-6) & (mid <= st["to_chainage_m"] + 1e-6)
+        d[on] = st["inside_diameter_mm"] / 1000
+        eps[on] = st["roughness_mm"] / 1000
     s = np.array(pts["slope_length_m"])
     z = np.array(pts["pipe_m"])
     # design flows by mass balance from the outlet list
@@ -77,8 +84,8 @@ def test_hgl_recomputed_with_fluids_and_iapws(demo_plan):
     for o in plan["outlets"]:
         q[: o["point_index"]] += o["flow_lps"] / 1000
     v = q / (np.pi * d**2 / 4)
-    hf = np.array([Colebrook(vi * d / nu, eps / d) * li / d * vi**2 / (2 * G) if vi > 0 else 0.0
-                   for vi, li in zip(v, np.diff(s))])
+    hf = np.array([Colebrook(vi * di / nu, ei / di) * li / di * vi**2 / (2 * G) if vi > 0 else 0.0
+                   for vi, li, di, ei in zip(v, np.diff(s), d, eps)])
     hv = np.append(v, v[-1]) ** 2 / (2 * G)
     # free surfaces: the source, then each tank
     starts = [(0, plan["source"]["low_water_level_m"])] + [
@@ -100,11 +107,12 @@ def test_hgl_recomputed_with_fluids_and_iapws(demo_plan):
 
 
 def test_static_head_and_energy_balance(demo_plan):
-    plan, _, _ = demo_plan
+    plan = demo_plan[0]
     pts = plan["points"]
     ground = np.array(pts["ground_m"])
     static = np.array(pts["static_head_m"])
     assert plan["source"]["top_water_level_m"] == pytest.approx(ground[0] + 1.2, abs=1e-3)
+    assert len(plan["break_pressure_tanks"]) >= 2
     for t in plan["break_pressure_tanks"]:
         assert t["water_level_m"] == pytest.approx(ground[t["point_index"]] + 1.0, abs=1e-3)
         assert static[t["point_index"]] == pytest.approx(t["water_level_m"], abs=1e-3)
@@ -117,18 +125,18 @@ def test_static_head_and_energy_balance(demo_plan):
 
 
 def test_demo_is_a_working_design(demo_plan):
-    plan, _, _ = demo_plan
+    plan = demo_plan[0]
     assert plan["summary"]["errors"] == 0
     assert all(o["ok"] for o in plan["outlets"])
-    assert plan["summary"]["max_static_pressure_head_m"] < plan["inputs"]["pipe"]["rating_head_m"]
+    pts = plan["points"]
+    assert np.all(np.array(pts["static_pressure_head_m"]) <= np.array(pts["rating_head_m"]) + 1e-3)
     assert plan["summary"]["design_flow_lps"] <= plan["source"]["yield_lps"]
     assert any("void" in f["message"] for f in plan["findings"])
     assert plan["cautions"]
 
 
 def test_plan_json_is_deterministic(demo_folder, demo_plan, tmp_path):
-    _, out, _ = demo_plan
-    res = CliRunner().invoke(main, ["plan", str(demo_folder / "scenario.toml"), "--out",
-                                    str(tmp_path)])
+    _, out, _, name = demo_plan
+    res = CliRunner().invoke(main, ["plan", str(demo_folder / name), "--out", str(tmp_path)])
     assert res.exit_code == 0
     assert (tmp_path / "plan.json").read_bytes() == (out / "plan.json").read_bytes()

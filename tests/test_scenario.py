@@ -37,12 +37,15 @@ def write(tmp_path, text):
 
 
 def test_demo_scenario_loads_in_si_units():
-    sc = load_scenario(ROOT / "demo_terrain" / "scenario.toml")
+    sc = load_scenario(ROOT / "demo_terrain" / "scenario_given_pipe.toml")
     assert sc.pipe.inside_diameter_m == pytest.approx(0.0614)
     assert sc.pipe.rating_pa == pytest.approx(16e5)
     assert sc.outlets[0].flow_m3s == pytest.approx(1.7 * LPS)
     assert sc.terrain.dem[0] == ROOT / "demo_terrain" / "dem.tif"     # relative to the file
     assert [t.chainage_m for t in sc.tanks] == [2000, 3400]
+    design = load_scenario(ROOT / "demo_terrain" / "scenario.toml")
+    assert design.pipe is None and design.design.catalogues == ("pe100",)
+    assert design.design.max_static_pressure_m == 100
 
 
 def test_defaults(tmp_path):

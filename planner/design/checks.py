@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from ..units import LPS
+from ..units import G, LPS
 
 
 @dataclass(frozen=True)
@@ -64,7 +64,8 @@ def _where(ch: NDArray, a: int, b: int) -> str:
 
 
 def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_head: NDArray,
-               velocity: NDArray, flowing: NDArray, rating_head: float, criteria,
+               velocity: NDArray, flowing: NDArray, rating_head, criteria,
+               elevation: NDArray | None = None, temperature_c: float = 20.0,
                surface_index: tuple[int, ...] = (0,)) -> list[Finding]:
     """Pressure and velocity checks at every profile point.
 
@@ -80,10 +81,14 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
         Velocity of the pipe leaving each point [m/s].
     flowing : ndarray of bool
         Where the pipe carries flow at design conditions.
-    rating_head : float
-        The pipe's rated pressure as head [m].
+    rating_head : float or ndarray
+        The pipe's (derated) pressure rating as head at each point [m].
     criteria : Criteria
         Limits (see :class:`planner.scenario.Criteria`).
+    elevation : ndarray, optional
+        Pipe elevation [m], for the siphon (vapour) limit.
+    temperature_c : float
+        Water temperature [degC], for the vapour pressure.
     surface_index : tuple of int
         Points where a free surface feeds the line (source, tanks).  A low-pressure
         stretch that starts there is the tank's own shallow head, not a margin
@@ -95,14 +100,33 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
     """
     ch = chainage
     out: list[Finding] = []
+    rating = np.broadcast_to(np.asarray(rating_head, dtype=float), ch.shape)
+    siphon_limit = None
+    if elevation is not None:
+        from ..hydraulics.water import atmospheric_pressure, density, vapour_pressure
+        rho_g = density(temperature_c) * G
+        # ../shared/domain.md 5.3: at most H_atm(z) - H_v(T) - a margin below atmospheric
+        siphon_limit = -((atmospheric_pressure(elevation) - vapour_pressure(temperature_c))
+                         / rho_g - criteria.siphon_margin_m)
     for a, b in stretches(pressure_head < 0):
         worst = a + int(np.argmin(pressure_head[a:b + 1]))
+        beyond = siphon_limit is not None and np.any(pressure_head[a:b + 1] < siphon_limit[a:b + 1])
+        where = (f"pressure below atmospheric {_where(ch, a, b)} (lowest {pressure_head[worst]:.1f} m "
+                 f"at {ch[worst]:,.0f} m): the pipe lies above the hydraulic grade line")
+        if criteria.allow_siphon and not beyond:
+            out.append(Finding(
+                "warning", "siphon", where + ", so this stretch runs as a siphon (allowed by "
+                "criteria.allow_siphon): it needs an airtight line, no air valves there, and "
+                "priming; dirty water can be drawn in at any leak",
+                "prefer a larger pipe upstream or a lower line; never in a drinking-water line "
+                "without disinfection", float(ch[a]), float(ch[b])))
+            continue
         out.append(Finding(
             "error", "sub-atmospheric",
-            f"pressure below atmospheric {_where(ch, a, b)} (lowest {pressure_head[worst]:.1f} m "
-            f"at {ch[worst]:,.0f} m): the pipe lies above the hydraulic grade line, so the line "
-            "runs as a siphon, air comes out of solution and dirty water can be drawn in at "
-            "leaks",
+            where + (", deeper than water can be lifted by siphon there (vapour limit less the "
+                     f"{criteria.siphon_margin_m:g} m margin)" if beyond else
+                     ", so the line runs as a siphon, air comes out of solution and dirty water "
+                     "can be drawn in at leaks"),
             "use a larger pipe upstream of this stretch, lower the line (deeper trench or "
             "another route), or move a break-pressure tank",
             float(ch[a]), float(ch[b])))
@@ -118,11 +142,11 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
             "given DEM error",
             "check the levels in the field; consider a larger pipe upstream",
             float(ch[a]), float(ch[b])))
-    for a, b in stretches(static_pressure_head > rating_head):
+    for a, b in stretches(static_pressure_head > rating + 1e-6):
         worst = a + int(np.argmax(static_pressure_head[a:b + 1]))
         out.append(Finding(
             "error", "over-rating",
-            f"static pressure above the pipe rating ({rating_head:.0f} m of head) "
+            f"static pressure above the pipe rating ({rating[worst]:.0f} m of head) "
             f"{_where(ch, a, b)} (highest {static_pressure_head[worst]:.1f} m at "
             f"{ch[worst]:,.0f} m): the pipe may burst when outlets close",
             "add a break-pressure tank upstream of this stretch or use a higher pressure class",
@@ -183,3 +207,37 @@ def check_yield(total_flow: float, yield_flow: float | None) -> list[Finding]:
         f"{yield_flow / LPS:.2f} L/s",
         "add a storage tank to balance peak demand against the yield, reduce the demand, "
         "or add a source")]
+
+
+def check_surge(stretches_, criteria) -> list[Finding]:
+    """Static head plus the surge of closing a valve in ``valve_closure_s`` against the rating.
+
+    The rise is Joukowsky's ``a V / g`` for closures faster than ``2 L / a``, Michaud's
+    ``2 L V / (g t)`` otherwise (see :func:`planner.hydraulics.surge.surge_head`), with L
+    the length of the reach from its free surface.  The allowed total is the derated
+    rating times ``criteria.surge_rating_factor``.
+    """
+    from ..hydraulics.surge import safe_closure_time
+
+    out = []
+    for s in stretches_:
+        if not np.isfinite(s.surge_head_m):
+            continue
+        allowed = criteria.surge_rating_factor * s.rating_head_m
+        total = s.max_static_head_m + s.surge_head_m
+        if total <= allowed + 1e-6:
+            continue
+        room = allowed - s.max_static_head_m
+        slower = ""
+        if room > 0:
+            t_safe = float(safe_closure_time(s.reach_length_m, s.max_velocity_mps, room))
+            slower = f"close valves over at least {max(t_safe, 2 * s.reach_length_m / s.wave_speed_mps):.0f} s, "
+        out.append(Finding(
+            "error", "surge",
+            f"{s.option.label} from chainage {s.chainage_m:,.0f} to {s.chainage_end_m:,.0f} m: "
+            f"static {s.max_static_head_m:.0f} m plus surge {s.surge_head_m:.0f} m "
+            f"(valve closed in {criteria.valve_closure_s:g} s, wave speed {s.wave_speed_mps:.0f} m/s) "
+            f"exceeds {allowed:.0f} m",
+            slower + "use a higher pressure class, or add a break-pressure tank",
+            s.chainage_m, s.chainage_end_m))
+    return out

@@ -1,25 +1,43 @@
-"""Orchestration: Scenario -> Profile -> flows -> energy along the line -> checks -> Plan.
+"""Orchestration: Scenario -> Profile -> flows -> tanks -> sizes -> energy -> checks -> Plan.
 
-Read top to bottom, this is the whole job for one gravity line.  It touches no file
-except through ``geo`` (route and DEM); writing results is the report package's job.
+Read top to bottom, this is the whole job for one gravity line.  Two modes:
+
+- **check**: the scenario gives one pipe ([pipe]); the line is computed and checked.
+- **design**: the scenario gives catalogues ([design]); break-pressure tanks are placed
+  where static head demands them, sizes and classes are chosen at least cost
+  (``sizing``), air valves and washouts are placed (``features``), surge is checked.
+
+It touches no file except through ``geo`` (route, DEM) and ``catalogue`` (pipe
+tables); writing results is the report package's job.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import warnings
+from dataclasses import dataclass, field
 
 import numpy as np
-from shapely.geometry import LineString, Point
+from numpy.typing import NDArray
 from pyproj import Transformer
+from shapely.geometry import LineString, Point
 
-from ..errors import InputError
-from ..geo.profile import Profile, profile_from_survey, sample_profile
+from ..catalogue.pipes import PipeOption, load_options
+from ..catalogue.standards import temperature_factor
+from ..errors import DesignError, InputError
+from ..geo.profile import Profile, profile_from_survey, sample_profile, split_profile
 from ..geo.route import WGS84, Survey, read_route
+from ..hydraulics import friction as fr
+from ..hydraulics import surge as sg
 from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, line_energy, segment_flows
 from ..scenario import Scenario
 from ..units import G
-from .checks import Finding, check_line, check_outlet, check_tank, check_yield
+from .checks import (Finding, check_line, check_outlet, check_surge, check_tank, check_yield,
+                     stretches as runs)
+from .features import Feature, place_features
+from .sizing import (SizingProblem, SizingResult, best_single_size, solve_sizing,
+                     solve_whole_pieces)
+from .tanks import TankSite, place_tanks
 
 SEVERITY_ORDER = {"error": 0, "warning": 1, "note": 2}
 
@@ -39,7 +57,7 @@ class OutletResult:
 
     @property
     def ok(self) -> bool:
-        return self.pressure_head_m >= self.min_pressure_m
+        return self.pressure_head_m >= self.min_pressure_m - 1e-6
 
 
 @dataclass(frozen=True)
@@ -51,11 +69,32 @@ class TankResult:
     index: int
     water_level_m: float
     arrival_hgl_m: float
+    rule: str = "placed by the engineer"
 
     @property
     def dissipated_m(self) -> float:
         """Head destroyed in the tank at design flow [m] (negative: tank not reached)."""
         return self.arrival_hgl_m - self.water_level_m
+
+
+@dataclass(frozen=True)
+class Stretch:
+    """A run of one pipe option along the line."""
+
+    option: PipeOption
+    start_index: int
+    end_index: int
+    chainage_m: float
+    chainage_end_m: float
+    length_m: float                 # along the pipe (3-D)
+    cost: float
+    rating_head_m: float            # derated rating as head
+    max_static_head_m: float
+    min_pressure_head_m: float
+    max_velocity_mps: float
+    surge_head_m: float = float("nan")
+    wave_speed_mps: float = float("nan")
+    reach_length_m: float = float("nan")   # from the free surface feeding it [m]
 
 
 @dataclass(frozen=True)
@@ -72,12 +111,23 @@ class Plan:
     total_flow_m3s: float
     density: float
     kinematic_viscosity: float
-    rating_head_m: float
+    rating_head_m: NDArray[np.float64]           # derated rating at each point, as head
     findings: tuple[Finding, ...]
+    mode: str = "check"
+    stretches: tuple[Stretch, ...] = field(default=())
+    features: tuple[Feature, ...] = field(default=())
+    sizing: SizingResult | None = None
+    single_size_cost: float | None = None
+    required_pressure_m: NDArray[np.float64] | None = None
+    binding_chainages_m: tuple[float, ...] = field(default=())
 
     @property
     def errors(self) -> list[Finding]:
         return [f for f in self.findings if f.severity == "error"]
+
+    @property
+    def pipe_cost(self) -> float:
+        return float(sum(s.cost for s in self.stretches))
 
 
 def build_profile(scenario: Scenario, dem=None) -> Profile:
@@ -116,8 +166,42 @@ def _chainage_of(profile: Profile, key: str, chainage: float | None, location, t
     return float(np.interp(along, planar, profile.chainage_m))
 
 
+def _given_pipe(sc: Scenario) -> PipeOption:
+    p = sc.pipe
+    nan = float("nan")
+    return PipeOption(material=p.material, label=p.label or p.material, outside_diameter=nan,
+                      inside_diameter=p.inside_diameter_m, wall=nan, rating=p.rating_pa,
+                      roughness=p.roughness_m if p.roughness_m is not None else nan,
+                      c_factor=p.c_factor if p.c_factor is not None else nan,
+                      elastic_modulus=nan, cost_per_m=0.0, catalogue="scenario [pipe]")
+
+
+def _candidate_data(options, flows, rho, nu, method):
+    """Velocity, velocity head and friction slope of every option in every segment."""
+    d = np.array([o.inside_diameter for o in options])
+    v = fr.velocity(flows[:, None], d[None, :])
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")      # transition warnings for candidates not chosen
+        loss = fr.head_loss(flows[:, None], d[None, :], 1.0, method=method,
+                            roughness=np.array([o.roughness for o in options])[None, :],
+                            c_factor=np.array([o.c_factor for o in options])[None, :],
+                            kinematic_viscosity=nu)
+    return np.atleast_2d(v), np.atleast_2d(v) ** 2 / (2 * G), np.atleast_2d(loss)
+
+
+def _wave_speeds(options, rho):
+    out = []
+    for o in options:
+        if np.isfinite(o.elastic_modulus) and np.isfinite(o.wall) and np.isfinite(o.outside_diameter):
+            out.append(sg.wave_speed(o.outside_diameter - o.wall, o.wall, o.elastic_modulus,
+                                     density=rho))
+        else:
+            out.append(float("nan"))
+    return np.array(out)
+
+
 def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=None) -> Plan:
-    """Compute heads, pressures and checks for a scenario's line at design flow.
+    """Compute (and in design mode, design) a scenario's line at design flow.
 
     Parameters
     ----------
@@ -131,13 +215,21 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     Returns
     -------
     Plan
+
+    Raises
+    ------
+    DesignError
+        In design mode, when no design can meet the limits; the message says where
+        and why, in numbers.
     """
     sc = scenario
+    cr = sc.criteria
     prof = profile if profile is not None else build_profile(sc, dem)
-    tol = sc.criteria.snap_tolerance_m
+    tol = cr.snap_tolerance_m
     ch = prof.chainage_m
+    n = prof.n
 
-    # the source's free surface
+    # -- the source's free surface
     g0 = float(prof.ground_m[0])
     top = sc.source.top_level_m if sc.source.top_level_m is not None else g0 + sc.source.top_above_ground_m
     low = sc.source.low_level_m if sc.source.low_level_m is not None else g0 + sc.source.low_above_ground_m
@@ -145,60 +237,422 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
         raise InputError(f"{sc.path}: source low water level {low:.2f} m is above the top "
                          f"water level {top:.2f} m")
 
-    # outlets, tanks and fittings placed on the profile
+    # -- outlets, fixed tanks and fittings placed on the profile
     placed = []
     for i, o in enumerate(sc.outlets, start=1):
-        c = _chainage_of(prof, f"outlets[{i}]", o.chainage_m, o.location, tol)
-        placed.append((o, prof.index_at(c)))
-    surfaces = [FreeSurface(0, top, low)]
-    tank_idx = []
+        placed.append((o, prof.index_at(_chainage_of(prof, f"outlets[{i}]", o.chainage_m,
+                                                     o.location, tol))))
+    fixed = []
     for i, tk in enumerate(sc.tanks, start=1):
-        c = _chainage_of(prof, f"break_pressure_tanks[{i}]", tk.chainage_m, None, tol)
-        j = prof.index_at(c)
-        if j <= (surfaces[-1].index if surfaces else 0) or j >= prof.n - 1:
+        j = prof.index_at(_chainage_of(prof, f"break_pressure_tanks[{i}]", tk.chainage_m, None, tol))
+        if j <= (fixed[-1][0] if fixed else 0) or j >= n - 1:
             raise InputError(f"break_pressure_tanks[{i}].chainage_m = {tk.chainage_m:,.0f} m: a "
                              "tank must lie inside the line, after the previous tank")
-        level = float(prof.ground_m[j] + tk.water_above_ground_m)
-        surfaces.append(FreeSurface(j, level, level))
-        tank_idx.append((tk, j, level))
-    point_k = np.zeros(prof.n)
+        fixed.append((j, float(prof.ground_m[j] + tk.water_above_ground_m), tk.name))
+    point_k = np.zeros(n)
     for i, f in enumerate(sc.fittings, start=1):
-        c = _chainage_of(prof, f"fittings[{i}]", f.chainage_m, None, tol)
-        point_k[prof.index_at(c)] += f.k
+        point_k[prof.index_at(_chainage_of(prof, f"fittings[{i}]", f.chainage_m, None, tol))] += f.k
 
-    # design flows by mass balance along the line, and the energy line
+    # -- design flows by mass balance along the line; water properties
     flows = segment_flows(ch, [(float(ch[j]), o.flow_m3s) for o, j in placed])
-    rho = water.density(sc.criteria.temperature_c)
-    nu = water.kinematic_viscosity(sc.criteria.temperature_c)
-    pipe = PipeHydraulics(inside_diameter=sc.pipe.inside_diameter_m, method=sc.criteria.friction,
-                          roughness=sc.pipe.roughness_m, c_factor=sc.pipe.c_factor)
-    energy = line_energy(prof.slope_length_m, prof.pipe_m, flows, pipe, kinematic_viscosity=nu,
-                         surfaces=surfaces, entrance_k=sc.criteria.entrance_k, point_k=point_k)
-    rating_head = sc.pipe.rating_pa / (rho * G)
+    rho = water.density(cr.temperature_c)
+    nu = water.kinematic_viscosity(cr.temperature_c)
 
-    # results and checks
+    # -- what may be used, with its rating derated for the wall temperature
+    design = sc.design is not None
+    if design:
+        d = sc.design
+        options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
+                               max_od_mm=d.max_size_mm)
+    else:
+        options = [_given_pipe(sc)]
+    try:
+        factors = np.array([temperature_factor(o.material, cr.wall_temperature_c) for o in options])
+    except ValueError as exc:
+        raise InputError(f"criteria.pipe_temperature_c: {exc}") from None
+    rating_head = np.array([o.rating for o in options]) * factors / (rho * G)
+
+    # -- break-pressure tanks, then what each segment may be made of
+    wave = _wave_speeds(options, rho)
+    v_cand, hv_cand, loss_cand = _candidate_data(options, flows, rho, nu, cr.friction)
+    names = {j: name for j, _, name in fixed}
+    margin = 0.0
+    for _ in range(12):
+        sites = _tank_sites(sc, prof, options, rating_head, top, fixed, margin)
+        surfaces = [FreeSurface(0, top, low)] + [FreeSurface(s.index, s.level, s.level)
+                                                 for s in sites]
+        bounds = [f.index for f in surfaces] + [n - 1]
+        reaches = list(zip(bounds[:-1], bounds[1:]))
+        seg_reach = np.searchsorted([f.index for f in surfaces], np.arange(n - 1), side="right") - 1
+        seg_level = np.array([surfaces[r].static_level for r in seg_reach])
+        seg_static = seg_level - np.minimum(prof.pipe_m[:-1], prof.pipe_m[1:])
+        reach_len = np.array([prof.slope_length_m[b] - prof.slope_length_m[a] for a, b in reaches])
+        surge_cand = np.where(np.isfinite(wave)[None, :],
+                              sg.surge_head(reach_len[seg_reach][:, None], v_cand, wave[None, :],
+                                            cr.valve_closure_s), 0.0)
+        if not design:
+            break
+        statics_ok = seg_static[:, None] <= rating_head[None, :]
+        fits = cr.surge_rating_factor * rating_head[None, :] - seg_static[:, None] - surge_cand
+        allowed = statics_ok & (fits >= 0) & (v_cand <= cr.velocity_max_mps)
+        short = ~allowed.any(axis=1) & statics_ok.any(axis=1)
+        if not sc.design.auto_tanks or not short.any():
+            break
+        # surge leaves no class for some segments: lower the tanks' static limit by the shortfall
+        margin += float(np.max(-np.max(np.where(statics_ok & (v_cand <= cr.velocity_max_mps),
+                                                fits, -np.inf), axis=1)[short])) + 1.0
+    auto_no = 0
+    tank_names = []
+    for s in sites:
+        if s.fixed:
+            tank_names.append(names.get(s.index, "break-pressure tank"))
+        else:
+            auto_no += 1
+            tank_names.append(f"BPT {auto_no} (placed)")
+    pt_reach = np.searchsorted([f.index for f in surfaces], np.arange(n), side="right") - 1
+    static_p = np.array([surfaces[r].static_level for r in pt_reach]) - prof.pipe_m
+    required = np.minimum(cr.min_line_pressure_m, np.maximum(static_p, 0.0) / 2.0)
+    for o, j in placed:
+        required[j] = max(required[j], o.min_pressure_m)
+
+    sizing = None
+    single_cost = None
+    if not design:
+        seg_opt = np.zeros(n - 1, dtype=np.int64)
+        refined, origin = prof, np.arange(n)
+    else:
+        allowed = _cheapest_per_size(allowed, options)
+        _feasibility(prof, options, allowed, flows, surfaces, reaches, required, point_k,
+                     seg_static, rating_head, v_cand, nu, cr)
+        # velocity heads and fitting losses depend on the sizes chosen: start from the
+        # largest admissible bores (smallest velocity heads) and raise them to those of
+        # the pipes chosen until the choice no longer changes them (monotone, so it ends)
+        splits = _split_points(prof, reaches, placed, point_k, sc.design.split_spacing_m)
+        piece_of_seg = np.searchsorted(splits, np.arange(n - 1), side="right") - 1
+        # a sub-stretch admits a candidate only if all its segments do
+        allowed_k = np.logical_and.reduceat(allowed, splits[:-1], axis=0)
+        hv_k = np.min(np.where(allowed_k, hv_cand[splits[:-1]], np.inf), axis=1)
+        extra = np.zeros(n)
+        for _ in range(12):
+            problem = _problem(prof, options, allowed_k, loss_cand[splits[:-1]], hv_k[piece_of_seg],
+                               surfaces, reaches, required + extra, point_k, cr, splits)
+            if sc.design.one_size_per_reach:
+                sizing = solve_sizing(problem, whole="reach")
+            elif sc.design.whole_pieces:
+                sizing = solve_whole_pieces(problem)
+            else:
+                sizing = solve_sizing(problem)
+            refined, seg_opt = _build_line(prof, problem, sizing.lengths, options)
+            energy, remap, surfaces_r, req_r = _exact_energy(
+                prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr)
+            # the programme checks pressure with the velocity heads it was told; recheck
+            # every point of the built line (size changes included) and tighten the
+            # programme where the built line falls short
+            short = req_r - energy.pressure_head
+            used = np.max(np.where(sizing.lengths > 1e-9, hv_cand[splits[:-1]], 0.0), axis=1)
+            if np.all(short <= 5e-4) and np.all(used <= hv_k + 1e-9):
+                break
+            hv_k = np.maximum(hv_k, used)
+            for i in np.flatnonzero(short > 5e-4):
+                j = min(int(np.searchsorted(ch, refined.chainage_m[i] - 1e-9)), n - 1)
+                extra[j] += short[i] + 1e-3
+        single_cost = best_single_size(problem)[0]
+    if not design:
+        energy, remap, surfaces_r, req_r = _exact_energy(
+            prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr)
+    rch = refined.chainage_m
+    seg_rating = rating_head[seg_opt]
+    pt_rating = np.minimum(np.append(seg_rating, seg_rating[-1]), np.insert(seg_rating, 0, seg_rating[0]))
+    req_r = np.interp(rch, ch, required)
+    req_r[remap] = required
+
+    # -- results
     outlets = tuple(OutletResult(
-        name=o.name, kind=o.kind, chainage_m=float(ch[j]), index=j, flow_m3s=o.flow_m3s,
-        ground_m=float(prof.ground_m[j]), pressure_head_m=float(energy.pressure_head[j]),
+        name=o.name, kind=o.kind, chainage_m=float(ch[j]), index=int(remap[j]), flow_m3s=o.flow_m3s,
+        ground_m=float(prof.ground_m[j]), pressure_head_m=float(energy.pressure_head[remap[j]]),
         min_pressure_m=o.min_pressure_m) for o, j in placed)
-    tanks = tuple(TankResult(name=tk.name, chainage_m=float(ch[j]), index=j, water_level_m=level,
-                             arrival_hgl_m=float(energy.arrival_hgl[j]))
-                  for tk, j, level in tank_idx)
+    tanks = tuple(TankResult(name=name, chainage_m=float(ch[s.index]), index=int(remap[s.index]),
+                             water_level_m=s.level,
+                             arrival_hgl_m=float(energy.arrival_hgl[remap[s.index]]), rule=s.rule)
+                  for s, name in zip(sites, tank_names))
+    stretches = _stretches(refined, energy, seg_opt, options, seg_rating, reaches_r=[
+        (int(remap[a]), int(remap[b])) for a, b in reaches], wave=wave, cr=cr)
+    od_pt = np.array([options[j].outside_diameter * 1e3 if np.isfinite(options[j].outside_diameter)
+                      else options[j].inside_diameter * 1e3 for j in np.append(seg_opt, seg_opt[-1])])
+    features = place_features(rch, refined.pipe_m, energy.hgl, od_pt,
+                              [(int(remap[a]), int(remap[b])) for a, b in reaches],
+                              prominence_m=cr.feature_prominence_m, grade_change=cr.grade_break,
+                              grade_window_m=cr.grade_window_m, spacing_m=cr.air_valve_spacing_m,
+                              long_ascent_m=cr.long_ascent_m)
+
+    # -- checks, each at every profile point
     total = float(sum(o.flow_m3s for o in sc.outlets))
     findings = check_yield(total, sc.source.yield_m3s)
-    findings += check_line(chainage=ch, pressure_head=energy.pressure_head,
+    findings += check_line(chainage=rch, pressure_head=energy.pressure_head,
                            static_pressure_head=energy.static_pressure_head,
                            velocity=energy.velocity, flowing=energy.flow > 0,
-                           rating_head=rating_head, criteria=sc.criteria,
-                           surface_index=tuple(f.index for f in surfaces))
+                           rating_head=pt_rating, criteria=cr, elevation=refined.pipe_m,
+                           temperature_c=cr.temperature_c,
+                           surface_index=tuple(f.index for f in surfaces_r))
     for o in outlets:
         findings += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m)
     for t in tanks:
-        findings += check_tank(t.name, t.chainage_m, t.arrival_hgl_m, t.water_level_m)
+        findings += check_tank(t.name, t.chainage_m, t.arrival_hgl_m,
+                               t.water_level_m + cr.tank_inlet_head_m)
+    findings += check_surge(stretches, cr)
+    for f in features:
+        if f.kind == "air_valve" and energy.pressure_head[f.index] < 0:
+            findings.append(Finding(
+                "error", "air-valve-vacuum",
+                f"the air valve at chainage {f.chainage_m:,.0f} m sits where the pressure is "
+                f"{energy.pressure_head[f.index]:.1f} m: it would let air in and break the flow",
+                "lower the line there, or use a larger pipe upstream", f.chainage_m, f.chainage_m))
+    if design and sizing is not None:
+        findings.append(Finding(
+            "note", "sizing",
+            f"sizes and classes chosen by the {sizing.method} at least cost "
+            f"({sizing.cost:,.0f}, optimality gap {sizing.gap * 100:.2g} %); "
+            + (f"the cheapest single size would cost {single_cost:,.0f}"
+               if np.isfinite(single_cost) else "no single size meets every limit")))
     findings += [Finding("note", "profile", note) for note in prof.notes]
     findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity],
                                  f.chainage_m if f.chainage_m is not None else -1.0))
-    return Plan(scenario=sc, profile=prof, energy=energy, outlets=outlets, tanks=tanks,
+    return Plan(scenario=sc, profile=refined, energy=energy, outlets=outlets, tanks=tanks,
                 source_top_level_m=float(top), source_low_level_m=float(low),
                 total_flow_m3s=total, density=float(rho), kinematic_viscosity=float(nu),
-                rating_head_m=float(rating_head), findings=tuple(findings))
+                rating_head_m=pt_rating, findings=tuple(findings),
+                mode="design" if design else "check", stretches=stretches,
+                features=tuple(features), sizing=sizing, single_size_cost=single_cost,
+                required_pressure_m=req_r,
+                binding_chainages_m=tuple(float(ch[i]) for i in sizing.binding) if sizing else ())
+
+
+def _exact_energy(prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr):
+    """The energy line of a built line, exactly, on its (refined) profile.
+
+    Returns the LineEnergy, the map from original to refined points, the free surfaces
+    on the refined profile and the pressure required at every refined point (at an
+    inserted point, the larger requirement of its segment's two ends).
+    """
+    ch, rch = prof.chainage_m, refined.chainage_m
+    remap = np.searchsorted(rch, ch)
+    surfaces_r = [FreeSurface(int(remap[f.index]), f.static_level, f.operating_level)
+                  for f in surfaces]
+    k_r = np.zeros(refined.n)
+    k_r[remap] = point_k
+    flows_r = segment_flows(rch, [(float(ch[j]), o.flow_m3s) for o, j in placed])
+    pipe = PipeHydraulics(
+        inside_diameter=np.array([options[j].inside_diameter for j in seg_opt]),
+        method=cr.friction,
+        roughness=np.array([options[j].roughness for j in seg_opt])
+        if cr.friction == "colebrook" else None,
+        c_factor=np.array([options[j].c_factor for j in seg_opt])
+        if cr.friction == "hazen-williams" else None)
+    energy = line_energy(refined.slope_length_m, refined.pipe_m, flows_r, pipe,
+                         kinematic_viscosity=nu, surfaces=surfaces_r, entrance_k=cr.entrance_k,
+                         point_k=k_r)
+    seg = np.clip(np.searchsorted(ch, rch, side="right") - 1, 0, ch.size - 2)
+    req_r = np.maximum(required[seg], required[seg + 1])
+    req_r[remap] = required
+    return energy, remap, surfaces_r, req_r
+
+
+def _tank_sites(sc, prof, options, rating_head, top, fixed, margin) -> list[TankSite]:
+    """Tanks: the engineer's, plus (design mode) those the static head demands."""
+    ch, n = prof.chainage_m, prof.n
+    if sc.design is None or not sc.design.auto_tanks:
+        return [TankSite(j, lvl, "placed by the engineer", fixed=True) for j, lvl, _ in fixed]
+    limit = float(rating_head.max())
+    reason = f"the highest class available, {options[int(rating_head.argmax())].label}"
+    if sc.design.max_static_pressure_m is not None and sc.design.max_static_pressure_m < limit:
+        limit, reason = sc.design.max_static_pressure_m, "design.max_static_pressure_m"
+    if margin > 0:
+        limit -= margin
+        reason += f", less {margin:.0f} m for surge"
+    forbidden = np.zeros(n, dtype=bool)
+    for a, b in sc.design.no_tank_zones:
+        forbidden |= (ch >= a) & (ch <= b)
+    return place_tanks(ch, prof.ground_m, prof.pipe_m, source_level=top, limit_head=limit,
+                       water_depth=sc.design.tank_water_depth_m,
+                       fixed=[(j, lvl) for j, lvl, _ in fixed], forbidden=forbidden,
+                       limit_reason=reason)
+
+
+def _cheapest_per_size(allowed: NDArray, options: list[PipeOption]) -> NDArray:
+    """Keep, per segment and per (material, outside diameter), the cheapest admissible class.
+
+    A higher class of the same size costs more and has a smaller bore, so it can never
+    be part of a cheaper design once the lower class is admissible.
+    """
+    keys = {}
+    for j, o in enumerate(options):
+        keys.setdefault((o.material, round(o.outside_diameter, 6)), []).append(j)
+    out = np.zeros_like(allowed)
+    cost = np.array([o.cost_per_m for o in options])
+    for cols in keys.values():
+        cols = np.array(cols)
+        sub = np.where(allowed[:, cols], cost[cols][None, :], np.inf)
+        best = np.argmin(sub, axis=1)
+        ok = np.isfinite(sub[np.arange(sub.shape[0]), best])
+        out[np.flatnonzero(ok), cols[best[ok]]] = True
+    return out
+
+
+def _where(ch, a, b):
+    return f"at chainage {ch[a]:,.0f} m" if a == b else f"from chainage {ch[a]:,.0f} to {ch[b]:,.0f} m"
+
+
+def _feasibility(prof, options, allowed, flows, surfaces, reaches, required, point_k,
+                 seg_static, rating_head, v_cand, nu, cr):
+    """Explain, in words and numbers, why no design can exist (largest pipes everywhere)."""
+    ch = prof.chainage_m
+    problems = []
+    none = ~allowed.any(axis=1)
+    for a, b in runs(none):
+        too_static = seg_static[a:b + 1].max() > rating_head.max()
+        if too_static:
+            problems.append(f"{_where(ch, a, b + 1)} the static head reaches "
+                            f"{seg_static[a:b + 1].max():.0f} m, above the highest class available "
+                            f"({rating_head.max():.0f} m): allow a break-pressure tank upstream or "
+                            "add a higher class")
+        else:
+            problems.append(f"{_where(ch, a, b + 1)} no pipe in the catalogues keeps the velocity "
+                            f"below {cr.velocity_max_mps:g} m/s and the static head plus surge "
+                            "within its class: add larger sizes or higher classes")
+    if problems:
+        raise DesignError("no design is possible:\n  - " + "\n  - ".join(problems))
+    ids = np.array([o.inside_diameter for o in options])
+    largest = np.argmax(np.where(allowed, ids[None, :], -1.0), axis=1)
+    pipe = PipeHydraulics(inside_diameter=ids[largest], method=cr.friction,
+                          roughness=np.array([options[j].roughness for j in largest])
+                          if cr.friction == "colebrook" else None,
+                          c_factor=np.array([options[j].c_factor for j in largest])
+                          if cr.friction == "hazen-williams" else None)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        e = line_energy(prof.slope_length_m, prof.pipe_m, flows, pipe, kinematic_viscosity=nu,
+                        surfaces=surfaces, entrance_k=cr.entrance_k, point_k=point_k)
+    short = e.pressure_head < required - 1e-6
+    level = e.static_head
+    for a, b in runs(short):
+        worst = a + int(np.argmin(e.pressure_head[a:b + 1] - required[a:b + 1]))
+        above_static = prof.pipe_m[worst] - level[worst]
+        if above_static > 0:
+            problems.append(f"at chainage {ch[worst]:,.0f} m the pipe is {above_static:.1f} m above "
+                            "the static head line, so no pipe delivers there: re-route, lower the "
+                            "line or pump")
+        else:
+            problems.append(f"{_where(ch, a, b)} even the largest pipes ({options[largest[min(a, largest.size - 1)]].label}) "
+                            f"leave {e.pressure_head[worst]:.1f} m of pressure at chainage "
+                            f"{ch[worst]:,.0f} m where {required[worst]:.1f} m is needed: allow larger "
+                            "sizes, reduce the design flow, or re-route")
+    for f in surfaces[1:]:
+        need = f.static_level + cr.tank_inlet_head_m
+        if e.arrival_hgl[f.index] < need:
+            problems.append(f"at design flow the water cannot reach the break-pressure tank at "
+                            f"chainage {ch[f.index]:,.0f} m even with the largest pipes (HGL "
+                            f"{e.arrival_hgl[f.index]:.1f} m, needed {need:.1f} m): allow larger sizes "
+                            "or move the tank")
+    if problems:
+        raise DesignError("no design is possible:\n  - " + "\n  - ".join(problems))
+
+
+def _split_points(prof, reaches, placed, point_k, spacing):
+    """Profile points where the pipe may change size: reach ends, outlets, fittings, and
+    points about ``spacing`` metres apart (every point when spacing is None)."""
+    n, ch = prof.n, prof.chainage_m
+    if not spacing:
+        return np.arange(n)
+    pts = {0, n - 1}
+    pts |= {a for a, _ in reaches} | {b for _, b in reaches}
+    pts |= {j for _, j in placed} | set(np.flatnonzero(point_k > 0).tolist())
+    pts |= set(np.searchsorted(ch, np.arange(spacing, ch[-1], spacing)).tolist())
+    return np.array(sorted(p for p in pts if 0 <= p < n), dtype=np.int64)
+
+
+def _problem(prof, options, allowed_k, loss_k, hv_seg, surfaces, reaches, required, point_k,
+             cr, splits):
+    """The split-pipe programme for this line (see sizing.py).
+
+    ``hv_seg`` is the velocity head assumed in each segment [m], for the velocity head
+    at the points and the fitting losses.
+    """
+    hv_pt = np.append(hv_seg, hv_seg[-1])
+    start = np.array([f.operating_level - (cr.entrance_k + point_k[f.index]) * hv_pt[f.index]
+                      for f in surfaces])
+    arrival = np.array([surfaces[r + 1].static_level + cr.tank_inlet_head_m + hv_seg[b - 1] + 1e-3
+                        if r + 1 < len(surfaces) else -np.inf for r, (a, b) in enumerate(reaches)])
+    groups = {}
+    group = np.array([groups.setdefault((o.material, round(o.outside_diameter, 6)), len(groups))
+                      for o in options])
+    return SizingProblem(
+        splits=splits, position=prof.slope_length_m, unit_loss=np.nan_to_num(loss_k, nan=0.0),
+        allowed=allowed_k, cost=np.array([o.cost_per_m for o in options]), group=group,
+        reaches=reaches, start_energy=start,
+        # 1 mm above each limit, so that rounding never shows a designed point as short
+        min_energy=prof.pipe_m + required + hv_pt + 1e-3,
+        arrival_min_energy=arrival, fitting_loss=point_k * hv_pt)
+
+
+def _build_line(prof: Profile, problem: SizingProblem, lengths: NDArray, options: list[PipeOption]):
+    """Insert size changes into the profile; return it with the option of each segment.
+
+    Within a sub-stretch made of several pipes, the larger bore goes upstream, so that
+    the HGL is concave there and lies above the chord the programme checked.
+    """
+    pos, ch = prof.slope_length_m, prof.chainage_m
+    ids = np.array([o.inside_diameter for o in options])
+    cuts_pos, seq = [], []
+    for k in range(lengths.shape[0]):
+        u = problem.splits[k]
+        total = lengths[k].sum()
+        used = np.flatnonzero(lengths[k] > 1e-6 * max(total, 1e-9))
+        if used.size == 0:
+            used = np.array([int(np.argmax(lengths[k]))])
+        used = used[np.argsort(-ids[used])]
+        share = lengths[k, used] / lengths[k, used].sum()
+        bounds = pos[u] + np.cumsum(share) * (pos[problem.splits[k + 1]] - pos[u])
+        cuts_pos.extend(bounds[:-1])
+        seq.append((bounds, used))
+    refined, _ = split_profile(prof, np.interp(cuts_pos, pos, ch))
+    rpos = refined.slope_length_m
+    mid = (rpos[:-1] + rpos[1:]) / 2
+    k_of = np.clip(np.searchsorted(pos[problem.splits], mid, side="right") - 1, 0, len(seq) - 1)
+    seg_opt = np.empty(refined.n - 1, dtype=np.int64)
+    for i, (k, m) in enumerate(zip(k_of, mid)):
+        bounds, used = seq[k]
+        seg_opt[i] = used[min(int(np.searchsorted(bounds, m)), used.size - 1)]
+    return refined, seg_opt
+
+
+def _stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, cr):
+    """Runs of one option, with their cost, ratings, pressures and surge."""
+    out = []
+    sl, ch = prof.slope_length_m, prof.chainage_m
+    reach_of = np.zeros(prof.n - 1, dtype=np.int64)
+    for r, (a, b) in enumerate(reaches_r):
+        reach_of[a:b] = r
+    breaks = set(a for a, _ in reaches_r)
+    start = 0
+    for s in range(1, seg_opt.size + 1):
+        if s < seg_opt.size and seg_opt[s] == seg_opt[start] and s not in breaks:
+            continue
+        j = int(seg_opt[start])
+        o = options[j]
+        a, b = start, s
+        length = float(sl[b] - sl[a])
+        r = int(reach_of[a])
+        ra, rb = reaches_r[r]
+        v = float(np.max(energy.velocity[a:b]))
+        surge = float(sg.surge_head(sl[rb] - sl[ra], v, wave[j], cr.valve_closure_s)) \
+            if np.isfinite(wave[j]) else float("nan")
+        out.append(Stretch(option=o, start_index=a, end_index=b, chainage_m=float(ch[a]),
+                           chainage_end_m=float(ch[b]), length_m=length,
+                           cost=length * o.cost_per_m, rating_head_m=float(seg_rating[a]),
+                           max_static_head_m=float(np.max(energy.static_head[a]
+                                                          - prof.pipe_m[a:b + 1])),
+                           min_pressure_head_m=float(np.min(energy.pressure_head[a:b + 1])),
+                           max_velocity_mps=v, surge_head_m=surge, wave_speed_mps=float(wave[j]),
+                           reach_length_m=float(sl[rb] - sl[ra])))
+        start = s
+    return tuple(out)

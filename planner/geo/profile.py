@@ -83,6 +83,9 @@ class Profile:
     elevation_source: str
     vertical_datum: str = "as the DEM (not stated)"
     notes: tuple[str, ...] = field(default=())
+    #: True at points inserted where the pipe changes size (ground linear between
+    #: the neighbouring profile points); None when there are none.
+    inserted: NDArray[np.bool_] | None = None
 
     @property
     def length_m(self) -> float:
@@ -319,3 +322,34 @@ def profile_from_survey(survey: Survey, cover_m: float = 0.8, *,
         elevation_source=f"survey {Path(survey.source).name}",
         vertical_datum=vertical_datum or "as surveyed (not stated)",
     )
+
+
+def split_profile(profile: Profile, chainages) -> tuple[Profile, NDArray[np.int64]]:
+    """Insert points at chainages (linear between neighbours); return the new profile.
+
+    Used to start a new pipe size exactly where a sizing result changes size.  Also
+    returns, for each new point, the index of the original segment it lies on (or the
+    original point's index).
+    """
+    ch = profile.chainage_m
+    new = np.setdiff1d(np.round(np.asarray(chainages, dtype=float), 6), np.round(ch, 6))
+    new = new[(new > ch[0]) & (new < ch[-1])]
+    if new.size == 0:
+        return profile, np.arange(profile.n)
+    merged = np.sort(np.concatenate([ch, new]))
+    origin = np.searchsorted(ch, merged, side="right") - 1
+
+    def interp(a):
+        return np.interp(merged, ch, a)
+
+    pipe = interp(profile.pipe_m)
+    filled = profile.filled[np.clip(origin, 0, profile.n - 1)]
+    vertex_index = np.searchsorted(merged, ch[profile.vertex_index])
+    return Profile(
+        chainage_m=merged, slope_length_m=_slope_length(merged, pipe), x=interp(profile.x),
+        y=interp(profile.y), lon=interp(profile.lon), lat=interp(profile.lat),
+        ground_m=interp(profile.ground_m), pipe_m=pipe, filled=filled,
+        vertex_index=vertex_index.astype(np.int64), crs=profile.crs,
+        spacing_m=profile.spacing_m, cover_m=profile.cover_m,
+        elevation_source=profile.elevation_source, vertical_datum=profile.vertical_datum,
+        notes=profile.notes, inserted=~np.isin(merged, ch)), origin

@@ -29,34 +29,39 @@ from . import friction as fr
 
 @dataclass(frozen=True)
 class PipeHydraulics:
-    """What the friction law needs to know about a pipe.
+    """What the friction law needs to know about the pipe of a line.
+
+    Each attribute is one value for the whole line, or an array with one value per
+    segment (a line of several sizes).
 
     Attributes
     ----------
-    inside_diameter : float
+    inside_diameter : float or ndarray
         [m].
     method : str
         ``"colebrook"`` (Darcy-Weisbach) or ``"hazen-williams"``.
-    roughness : float or None
+    roughness : float, ndarray or None
         Absolute roughness [m], for Colebrook-White.
-    c_factor : float or None
+    c_factor : float, ndarray or None
         Hazen-Williams C [-].
     """
 
-    inside_diameter: float
+    inside_diameter: float | NDArray
     method: str = "colebrook"
-    roughness: float | None = None
-    c_factor: float | None = None
+    roughness: float | NDArray | None = None
+    c_factor: float | NDArray | None = None
 
     def __post_init__(self):
-        if not self.inside_diameter > 0:
+        if not np.all(np.asarray(self.inside_diameter) > 0):
             raise InputError(f"inside diameter must be positive, got {self.inside_diameter!r} m")
         if self.method not in fr.FRICTION_METHODS:
             raise InputError(f"unknown friction method {self.method!r}; "
                              f"choose one of {', '.join(fr.FRICTION_METHODS)}")
-        if self.method == "colebrook" and (self.roughness is None or self.roughness < 0):
+        if self.method == "colebrook" and (self.roughness is None
+                                           or np.any(np.asarray(self.roughness) < 0)):
             raise InputError("the colebrook method needs a roughness >= 0")
-        if self.method == "hazen-williams" and (self.c_factor is None or self.c_factor <= 0):
+        if self.method == "hazen-williams" and (self.c_factor is None
+                                                or np.any(np.asarray(self.c_factor) <= 0)):
             raise InputError("the hazen-williams method needs a C factor > 0")
 
 

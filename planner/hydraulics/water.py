@@ -180,3 +180,30 @@ def vapour_pressure(temperature_c):
     c = n[5] * theta**2 + n[6] * theta + n[7]
     p = (2 * c / (-b + np.sqrt(b**2 - 4 * a * c))) ** 4 * 1e6
     return as_output(p)
+
+
+def atmospheric_pressure(elevation_m):
+    """Air pressure of the standard atmosphere at an elevation.
+
+    Parameters
+    ----------
+    elevation_m : float or ndarray
+        Elevation above sea level [m], up to 11 km.
+
+    Returns
+    -------
+    float or ndarray
+        Pressure [Pa]: ``101325 (1 - 2.25577e-5 z)^5.25588``.
+
+    Notes
+    -----
+    The troposphere of the ISO 2533 / ICAO standard atmosphere (formula from memory;
+    it reproduces the standard's 89.9 kPa at 1,000 m and 79.5 kPa at 2,000 m).
+
+    Examples
+    --------
+    >>> round(float(atmospheric_pressure(2000.0)) / 1e3, 1)
+    79.5
+    """
+    z = np.asarray(elevation_m, dtype=float)
+    return as_output(101325.0 * (1.0 - 2.25577e-5 * z) ** 5.25588)

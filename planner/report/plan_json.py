@@ -53,6 +53,8 @@ def plan_to_dict(plan: Plan) -> dict:
         "lon": _r(prof.lon, 7), "lat": _r(prof.lat, 7),
         "ground_m": _r(prof.ground_m, 3), "pipe_m": _r(prof.pipe_m, 3),
         "ground_filled": [bool(v) for v in prof.filled],
+        "inserted": [bool(v) for v in (prof.inserted if prof.inserted is not None
+                                       else np.zeros(prof.n, dtype=bool))],
         "static_head_m": _r(e.static_head, 3),
         "hgl_m": _r(e.hgl, 3),
         "energy_m": _r(e.energy, 3),
@@ -60,6 +62,9 @@ def plan_to_dict(plan: Plan) -> dict:
         "static_pressure_head_m": _r(e.static_pressure_head, 3),
         "flow_lps": _r(e.flow / LPS, 4),
         "velocity_mps": _r(e.velocity, 4),
+        "rating_head_m": _r(plan.rating_head_m, 3),
+        "required_pressure_head_m": _r(plan.required_pressure_m, 3)
+        if plan.required_pressure_m is not None else None,
     }
     balance = [{
         "from_chainage_m": _f(prof.chainage_m[r.start_index], 2),
@@ -71,6 +76,7 @@ def plan_to_dict(plan: Plan) -> dict:
     } for r in e.reaches]
     return {
         "schema": SCHEMA,
+        "mode": plan.mode,
         "tool": {"name": "gravplan", "version": __version__},
         "project": {"name": sc.project.name, "reference": sc.project.reference,
                     "engineer": sc.project.engineer, "notes": sc.project.notes},
@@ -82,13 +88,16 @@ def plan_to_dict(plan: Plan) -> dict:
             "crs": prof.crs,
             "spacing_m": _f(prof.spacing_m, 3),
             "cover_m": _f(prof.cover_m, 3),
-            "pipe": {"material": sc.pipe.material, "label": sc.pipe.label,
-                     "inside_diameter_mm": _f(sc.pipe.inside_diameter_m * 1e3, 2),
-                     "roughness_mm": _f(sc.pipe.roughness_m * 1e3, 4)
-                     if sc.pipe.roughness_m is not None else None,
-                     "hazen_williams_c": sc.pipe.c_factor,
-                     "rating_bar": _f(sc.pipe.rating_pa / BAR, 2),
-                     "rating_head_m": _f(plan.rating_head_m, 2)},
+            "pipe": ({"material": sc.pipe.material, "label": sc.pipe.label,
+                      "inside_diameter_mm": _f(sc.pipe.inside_diameter_m * 1e3, 2),
+                      "roughness_mm": _f(sc.pipe.roughness_m * 1e3, 4)
+                      if sc.pipe.roughness_m is not None else None,
+                      "hazen_williams_c": sc.pipe.c_factor,
+                      "rating_bar": _f(sc.pipe.rating_pa / BAR, 2),
+                      "rating_head_m": _f(float(plan.rating_head_m[0]), 2)}
+                     if sc.pipe is not None else None),
+            "design": ({k: (list(v) if isinstance(v, tuple) else v)
+                        for k, v in vars(sc.design).items()} if sc.design is not None else None),
             "criteria": {k: getattr(sc.criteria, k) for k in sc.criteria.__dataclass_fields__},
         },
         "water": {"temperature_c": sc.criteria.temperature_c,
@@ -121,9 +130,42 @@ def plan_to_dict(plan: Plan) -> dict:
         "break_pressure_tanks": [{
             "name": t.name, "chainage_m": _f(t.chainage_m, 2), "point_index": t.index,
             "water_level_m": _f(t.water_level_m), "arrival_hgl_m": _f(t.arrival_hgl_m),
-            "head_dissipated_m": _f(t.dissipated_m),
+            "head_dissipated_m": _f(t.dissipated_m), "rule": t.rule,
         } for t in plan.tanks],
         "energy_balance": balance,
+        "stretches": [{
+            "material": st.option.material, "label": st.option.label,
+            "outside_diameter_mm": _f(st.option.outside_diameter * 1e3, 2),
+            "inside_diameter_mm": _f(st.option.inside_diameter * 1e3, 2),
+            "pressure_rating_bar": _f(st.option.rating / BAR, 2),
+            "roughness_mm": _f(st.option.roughness * 1e3, 4),
+            "hazen_williams_c": _f(st.option.c_factor, 1),
+            "derated_rating_head_m": _f(st.rating_head_m, 2),
+            "from_chainage_m": _f(st.chainage_m, 2), "to_chainage_m": _f(st.chainage_end_m, 2),
+            "length_m": _f(st.length_m, 2), "cost_per_m": _f(st.option.cost_per_m, 2),
+            "cost": _f(st.cost, 2), "max_static_head_m": _f(st.max_static_head_m, 2),
+            "min_pressure_head_m": _f(st.min_pressure_head_m, 2),
+            "max_velocity_mps": _f(st.max_velocity_mps, 3),
+            "wave_speed_mps": _f(st.wave_speed_mps, 1), "surge_head_m": _f(st.surge_head_m, 2),
+            "catalogue": st.option.catalogue,
+        } for st in plan.stretches],
+        "features": [{
+            "kind": f.kind, "chainage_m": _f(f.chainage_m, 2), "point_index": f.index,
+            "lon": _f(float(prof.lon[f.index]), 7), "lat": _f(float(prof.lat[f.index]), 7),
+            "pipe_elevation_m": _f(f.elevation_m), "size_mm": f.size_mm, "rule": f.rule,
+            "source": f.source, "detail": f.detail,
+        } for f in plan.features],
+        "costs": {"pipe": _f(plan.pipe_cost, 2),
+                  "note": "in the catalogues' currency; the built-in prices are invented demo values"},
+        "sizing": ({
+            "method": plan.sizing.method, "status": plan.sizing.status,
+            "objective": _f(plan.sizing.cost, 2), "optimality_gap": plan.sizing.gap,
+            "lower_bound": _f(plan.sizing.lower_bound, 2),
+            "variables": plan.sizing.variables, "constraints": plan.sizing.constraints,
+            "binding_chainages_m": [_f(c, 2) for c in plan.binding_chainages_m],
+            "cheapest_single_size_cost": _f(plan.single_size_cost, 2)
+            if plan.single_size_cost is not None and math.isfinite(plan.single_size_cost) else None,
+        } if plan.sizing is not None else None),
         "findings": [{
             "severity": f.severity, "code": f.code, "chainage_m": _f(f.chainage_m, 2),
             "chainage_end_m": _f(f.chainage_end_m, 2), "message": f.message, "remedy": f.remedy,

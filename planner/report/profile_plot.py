@@ -30,6 +30,33 @@ def _hgl_segments(plan: Plan):
         yield ch[a:b + 1], y, e.static_head[a]
 
 
+#: Hatches that tell pipe options apart in the band, also in black and white print.
+HATCHES = ("", "////", "....", "xxxx", "\\\\\\\\", "oo", "----", "++")
+
+
+def _class_band(ax, plan: Plan, km, base, top):
+    """A band along the bottom of the elevation panel: one shade per pipe option."""
+    if not plan.stretches:
+        return
+    from matplotlib.patches import Rectangle
+
+    labels = sorted({s.option.label for s in plan.stretches},
+                    key=lambda lb: next(s.option.inside_diameter for s in plan.stretches
+                                        if s.option.label == lb))
+    greys = np.linspace(0.95, 0.35, max(len(labels), 2))
+    height = 0.06 * (top - base)
+    for s in plan.stretches:
+        k = labels.index(s.option.label)
+        ax.add_patch(Rectangle((s.chainage_m / 1000.0, base), (s.chainage_end_m - s.chainage_m) / 1000.0,
+                               height, facecolor=str(greys[k]), edgecolor="black", lw=0.3,
+                               hatch=HATCHES[k % len(HATCHES)], zorder=3))
+    handles = [Rectangle((0, 0), 1, 1, facecolor=str(greys[k]), edgecolor="black", lw=0.3,
+                         hatch=HATCHES[k % len(HATCHES)]) for k in range(len(labels))]
+    leg = ax.legend(handles, labels, loc="upper right", fontsize=7, title="pipe (band at bottom)",
+                    title_fontsize=7, framealpha=0.9, ncol=2 if len(labels) > 6 else 1)
+    ax.add_artist(leg)
+
+
 def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
     """Draw the profile; return the matplotlib Figure."""
     import matplotlib
@@ -76,25 +103,36 @@ def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
         ax.plot([c], [z], marker="o", ms=8, mfc="#2e8b57", mec="black", ls="none")
         near_end = o.chainage_m > 0.85 * prof.length_m
         ax.annotate(f"{o.name}\n{o.flow_m3s * 1e3:.2f} L/s, {o.pressure_head_m:.1f} m",
-                    (c, z), xytext=(-8 if near_end else 8, -30), textcoords="offset points",
+                    (c, z), xytext=(-8 if near_end else 8, 12), textcoords="offset points",
                     fontsize=8, ha="right" if near_end else "left",
                     bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.8))
+    marks = {"air_valve": ("^", "white", "air valve"), "washout": ("v", "#555555", "washout")}
+    shown = set()
+    for f in plan.features:
+        marker, colour, label = marks.get(f.kind, ("x", "black", f.kind))
+        ax.plot([f.chainage_m / 1000.0], [f.elevation_m], marker=marker, ms=7, mfc=colour,
+                mec="black", ls="none", label=None if f.kind in shown else label)
+        shown.add(f.kind)
     top = max(plan.source_top_level_m, float(np.nanmax(e.hgl))) + 15.0
     ax.set_ylim(base, top)
+    _class_band(ax, plan, km, base, top)
     ax.set_ylabel("elevation [m]")
     ax.grid(True, color="#cccccc", lw=0.5)
-    ax.legend(loc="lower left", fontsize=8, framealpha=0.9)
+    handles, labels = ax.get_legend_handles_labels()
+    ax.legend(handles, labels, loc="lower left", fontsize=8, framealpha=0.9)
     ax.set_xlim(-0.01 * km[-1], 1.01 * km[-1])
     sc = plan.scenario
-    ax.set_title(f"{sc.project.name}\n{sc.pipe.label or sc.pipe.material}, "
-                 f"design flow {plan.total_flow_m3s * 1e3:.2f} L/s", fontsize=11, loc="left")
+    pipes = (sc.pipe.label or sc.pipe.material) if sc.pipe is not None else \
+        f"{len({st.option.label for st in plan.stretches})} pipe sizes/classes, cost {plan.pipe_cost:,.0f}"
+    ax.set_title(f"{sc.project.name}\n{pipes}, design flow {plan.total_flow_m3s * 1e3:.2f} L/s",
+                 fontsize=11, loc="left")
 
     if axp is not None:
         axp.plot(km, e.pressure_head, color="#c0392b", lw=1.5, label="pressure head, design flow")
         axp.plot(km, e.static_pressure_head, color="#1f4e9c", lw=1.2, ls="--",
                  label="static pressure head (outlets closed)")
-        axp.axhline(plan.rating_head_m, color="black", lw=1.0, ls="-.",
-                    label=f"pipe rating {sc.pipe.rating_pa / 1e5:g} bar = {plan.rating_head_m:.0f} m")
+        axp.plot(km, plan.rating_head_m, color="black", lw=1.0, ls="-.", drawstyle="steps-post",
+                 label="pipe rating (derated), as head")
         axp.axhline(0.0, color="#888888", lw=0.8)
         axp.set_ylabel("pressure head [m]")
         axp.set_xlabel("chainage [km]")

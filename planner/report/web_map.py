@@ -96,7 +96,7 @@ def build_map(plan: Plan, *, terrain=None):
         rgba, bounds = _overlay(*terrain)
         folium.raster_layers.ImageOverlay(rgba, bounds=bounds, name="hillshade (DEM)",
                                           opacity=0.9, mercator_project=False).add_to(m)
-    vmax = float(max(plan.rating_head_m, np.nanmax(e.static_pressure_head)))
+    vmax = float(max(np.nanmax(plan.rating_head_m), np.nanmax(e.static_pressure_head)))
     cmap = cm.LinearColormap(["#b2182b", "#f4a582", "#92c5de", "#2166ac", "#053061"],
                              vmin=float(min(0.0, np.nanmin(p))), vmax=vmax,
                              caption="pressure head at design flow [m]")
@@ -130,6 +130,21 @@ def build_map(plan: Plan, *, terrain=None):
                f"{o.pressure_head_m:.1f} m (min {o.min_pressure_m:g} m)",
                "#2e8b57" if o.ok else "#c0392b")
     marks.add_to(m)
+    if plan.features:
+        valves = folium.FeatureGroup(name="air valves and washouts")
+        colours = {"air_valve": "#f1c40f", "washout": "#8e44ad"}
+        for f in plan.features:
+            title = f.kind.replace("_", " ")
+            size = f" DN{f.size_mm:.0f}" if f.size_mm else ""
+            folium.CircleMarker(
+                [float(prof.lat[f.index]), float(prof.lon[f.index])], radius=5, color="black",
+                weight=1, fill=True, fill_color=colours.get(f.kind, "#999999"), fill_opacity=1.0,
+                tooltip=esc(f"{title} at {f.chainage_m:,.0f} m"), class_name=f"plan-feature {f.kind}",
+                popup=folium.Popup(f"<b>{esc(title)}{esc(size)}</b><br>chainage {f.chainage_m:,.0f} m"
+                                   f"<br>pipe elevation {f.elevation_m:.1f} m<br>rule: {esc(f.rule)}"
+                                   f"<br>source: {esc(f.source)}<br>{esc(f.detail)}",
+                                   max_width=340)).add_to(valves)
+        valves.add_to(m)
     folium.LayerControl(position="bottomright", collapsed=False).add_to(m)
     m.fit_bounds([[float(lat.min()), float(lon.min())], [float(lat.max()), float(lon.max())]],
                  padding=(40, 40))

@@ -1,0 +1,1 @@
+"""Pipe catalogues: real dimensions and ratings, with prices users replace."""
