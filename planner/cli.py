@@ -179,6 +179,33 @@ def plan(scenario, out, overwrite):
 
 
 @main.command()
+@click.argument("catalogues", nargs=-1)
+@click.option("--material", "materials", multiple=True, help="Keep this material (repeatable).")
+@click.option("--min-size", type=float, default=None, help="Smallest outside diameter [mm].")
+@click.option("--max-size", type=float, default=None, help="Largest outside diameter [mm].")
+@click.option("--min-pn", type=float, default=None, help="Lowest pressure rating [bar].")
+def catalogue(catalogues, materials, min_size, max_size, min_pn):
+    """List pipe options from CATALOGUES (built-in names or CSV paths; default all built-in).
+
+    \b
+    Example:
+      gravplan catalogue pe100 --min-size 50 --max-size 110 --min-pn 10
+    """
+    from .catalogue.pipes import BUILTIN, load_options
+
+    names = list(catalogues) or list(BUILTIN)
+    options = _run(lambda: load_options(names, materials=materials or None, min_od_mm=min_size,
+                                        max_od_mm=max_size, min_rating_bar=min_pn))
+    click.echo(f"{'label':<28}{'OD mm':>8}{'ID mm':>9}{'wall mm':>9}{'PN bar':>8}"
+               f"{'rough mm':>10}{'C':>6}{'cost/m':>9}  catalogue")
+    for o in options:
+        click.echo(f"{o.label:<28}{o.outside_diameter * 1e3:>8.1f}{o.inside_diameter * 1e3:>9.2f}"
+                   f"{o.wall * 1e3:>9.1f}{o.rating / 1e5:>8.1f}{o.roughness * 1e3:>10.4f}"
+                   f"{o.c_factor:>6.0f}{o.cost_per_m:>9.2f}  {o.catalogue}")
+    click.echo(f"{len(options)} options; built-in prices are invented demo values", err=True)
+
+
+@main.command()
 @click.option("--out", type=click.Path(file_okay=False, path_type=Path), default=Path("outputs/demo"),
               show_default=True, help="Folder for the demo's results (replaced).")
 def demo(out):

@@ -124,3 +124,79 @@ def test_velocity_warning(ramp_site):
     outlets = '[[outlets]]\nname = "end"\nchainage_m = 3500\nflow_lps = 0.2\n'
     plan = plan_scenario(load_scenario(scenario(ramp_site, outlets=outlets)))
     assert any(f.code == "velocity-low" for f in plan.findings)
+
+
+DESIGN = '[design]\ncatalogues = ["pe100"]\nmax_size_mm = 160\n'
+
+
+def design_scenario(tmp_path, extra_design="", **kw):
+    text = scenario(tmp_path, **kw).read_text()
+    start, end = text.index("[pipe]"), text.index("[[outlets]]")
+    text = text[:start] + DESIGN + extra_design + "\n" + text[end:]
+    p = tmp_path / "design.toml"
+    p.write_text(text)
+    return p
+
+
+def recheck_with_fluids(plan):
+    """Pressures of the returned design recomputed with fluids' Colebrook, point by point."""
+    from fluids.friction import Colebrook
+    from iapws import IAPWS95
+
+    w = IAPWS95(T=293.15, P=0.101325)
+    nu = w.mu / w.rho
+    prof, e = plan.profile, plan.energy
+    d = np.empty(prof.n - 1)
+    eps = np.empty(prof.n - 1)
+    for st in plan.stretches:
+        d[st.start_index:st.end_index] = st.option.inside_diameter
+        eps[st.start_index:st.end_index] = st.option.roughness
+    q = e.flow[:-1]
+    v = q / (np.pi * d**2 / 4)
+    hf = np.array([Colebrook(vi * di / nu, ei / di) * li / di * vi**2 / 19.6133 if vi > 0 else 0
+                   for vi, di, ei, li in zip(v, d, eps, np.diff(prof.slope_length_m))])
+    return hf, v
+
+
+def test_design_on_a_long_ramp_places_tanks_and_meets_every_limit(ramp_site):
+    plan = plan_scenario(load_scenario(design_scenario(ramp_site)))
+    assert plan.mode == "design" and not plan.errors
+    # 140 m of fall: PE100 goes to PN20 (204 m), so no tank is needed ...
+    assert len(plan.tanks) == 0
+    plan2 = plan_scenario(load_scenario(design_scenario(
+        ramp_site, extra_design="max_static_pressure_m = 60\n")))
+    # ... but with a 60 m limit, tanks keep every static head within it
+    assert len(plan2.tanks) >= 2
+    assert np.all(plan2.energy.static_pressure_head <= 60 + 1e-6)
+    for p in (plan, plan2):
+        hf, v = recheck_with_fluids(p)
+        # friction recomputed independently agrees with the plan's energy line
+        reach = p.energy.reaches[0]
+        assert np.sum(hf[reach.start_index:reach.end_index]) == pytest.approx(reach.friction, rel=1e-3)
+        assert np.all(p.energy.pressure_head >= p.required_pressure_m - 1e-3)
+        assert np.all(p.energy.static_pressure_head <= p.rating_head_m + 1e-6)
+        assert np.all(v <= 3.0 + 1e-9)
+        assert p.pipe_cost == pytest.approx(p.sizing.cost, rel=1e-6)
+        assert p.single_size_cost is None or p.pipe_cost <= p.single_size_cost + 1e-6
+
+
+def test_one_size_per_reach(ramp_site):
+    free = plan_scenario(load_scenario(design_scenario(ramp_site, extra_design="max_static_pressure_m = 60\n")))
+    one = plan_scenario(load_scenario(design_scenario(
+        ramp_site, extra_design="max_static_pressure_m = 60\none_size_per_reach = true\n")))
+    assert one.pipe_cost >= free.sizing.lower_bound - 1e-6
+    for a, b in zip([0] + [t.index for t in one.tanks], [t.index for t in one.tanks] + [one.profile.n - 1]):
+        sizes = {st.option.outside_diameter for st in one.stretches if a <= st.start_index < b}
+        assert len(sizes) == 1
+
+
+def test_no_design_when_the_pipe_rises_above_the_source(tmp_path, write_geojson):
+    z = ramp()
+    u = (np.arange(400) + 0.5) * 10
+    z += 90 * np.exp(-(((u - 1500) / 200) ** 2))        # a hill above the source level
+    write_raster(tmp_path / "dem.tif", z, top=N0 + 1000)
+    write_geojson([(E0 + 100, N0 + 500), (E0 + 3600, N0 + 500)])
+    from planner.errors import DesignError
+    with pytest.raises(DesignError, match=r"at chainage 1,[34]\d\d m the pipe is \d+\.\d m above the "
+                                          r"static head line, so no pipe delivers there"):
+        plan_scenario(load_scenario(design_scenario(tmp_path)))
