@@ -321,7 +321,6 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
         seg_opt = np.zeros(n - 1, dtype=np.int64)
         refined, origin = prof, np.arange(n)
     else:
-        allowed = _cheapest_per_size(allowed, options)
         _feasibility(prof, options, allowed, flows, surfaces, reaches, required, point_k,
                      seg_static, rating_head, v_cand, nu, cr)
         # velocity heads and fitting losses depend on the sizes chosen: start from the
@@ -329,8 +328,10 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
         # the pipes chosen until the choice no longer changes them (monotone, so it ends)
         splits = _split_points(prof, reaches, placed, point_k, sc.design.split_spacing_m)
         piece_of_seg = np.searchsorted(splits, np.arange(n - 1), side="right") - 1
-        # a sub-stretch admits a candidate only if all its segments do
-        allowed_k = np.logical_and.reduceat(allowed, splits[:-1], axis=0)
+        # a sub-stretch admits a candidate only if all its segments do; of each size only
+        # the cheapest class it admits can be part of a least-cost design
+        allowed_k = _cheapest_per_size(np.logical_and.reduceat(allowed, splits[:-1], axis=0),
+                                       options)
         hv_k = np.min(np.where(allowed_k, hv_cand[splits[:-1]], np.inf), axis=1)
         extra = np.zeros(n)
         for _ in range(12):
