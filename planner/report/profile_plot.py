@@ -103,7 +103,7 @@ def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
         ax.plot([c], [z], marker="o", ms=8, mfc="#2e8b57", mec="black", ls="none")
         near_end = o.chainage_m > 0.85 * prof.length_m
         ax.annotate(f"{o.name}\n{o.flow_m3s * 1e3:.2f} L/s, {o.pressure_head_m:.1f} m",
-                    (c, z), xytext=(-8 if near_end else 8, 12), textcoords="offset points",
+                    (c, z), xytext=(-8, 12) if near_end else (8, -34), textcoords="offset points",
                     fontsize=8, ha="right" if near_end else "left",
                     bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.8))
     marks = {"air_valve": ("^", "white", "air valve"), "washout": ("v", "#555555", "washout")}
