@@ -34,6 +34,7 @@ test: $(STAMP) chromium
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_sampling.py
+	$(BIN)/python benchmarks/bench_sizing.py
 
 clean:
 	rm -rf $(VENV) outputs/demo demo_terrain/dem.tif
