@@ -200,3 +200,21 @@ def test_no_design_when_the_pipe_rises_above_the_source(tmp_path, write_geojson)
     with pytest.raises(DesignError, match=r"at chainage 1,[34]\d\d m the pipe is \d+\.\d m above the "
                                           r"static head line, so no pipe delivers there"):
         plan_scenario(load_scenario(design_scenario(tmp_path)))
+
+
+@pytest.mark.parametrize("hump, expected", [(48.0, ("warning", "siphon")),
+                                           (75.0, ("error", "sub-atmospheric"))])
+def test_siphon_allowed_up_to_the_vapour_limit(tmp_path, write_geojson, hump, expected):
+    z = ramp()
+    u = (np.arange(400) + 0.5) * 10
+    z += hump * np.exp(-(((u - 1500) / 300) ** 2))
+    write_raster(tmp_path / "dem.tif", z, top=N0 + 1000)
+    write_geojson([(E0 + 100, N0 + 500), (E0 + 3600, N0 + 500)])
+    plan = plan_scenario(load_scenario(scenario(tmp_path, criteria="allow_siphon = true")))
+    codes = {(f.severity, f.code) for f in plan.findings}
+    lowest = float(np.min(plan.energy.pressure_head))
+    # vapour limit near 1,200 m (../shared/domain.md 5.3): H_atm 8.9 m - H_v 0.24 m, less the
+    # 2.5 m margin = 6.2 m below atmospheric
+    assert (lowest > -6.2) == (expected[0] == "warning")
+    assert expected in codes
+    assert ("error", "air-valve-vacuum") in codes          # a crest valve there would admit air
