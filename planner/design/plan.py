@@ -319,7 +319,7 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     single_cost = None
     if not design:
         seg_opt = np.zeros(n - 1, dtype=np.int64)
-        refined, origin = prof, np.arange(n)
+        refined = prof
     else:
         _feasibility(prof, options, allowed, flows, surfaces, reaches, required, point_k,
                      seg_static, rating_head, v_cand, nu, cr)

@@ -212,7 +212,7 @@ def colebrook(reynolds_number, relative_roughness, *, tol=1e-14, max_iter=50):
     b = 2.51 / re
     x = 1.0 / np.sqrt(swamee_jain_1976(re, ed))
     ln10 = np.log(10.0)
-    for iteration in range(1, max_iter + 1):
+    for _ in range(max_iter):
         inner = a + b * x
         fx = x + 2.0 * np.log10(inner)
         dfx = 1.0 + 2.0 * b / (ln10 * inner)

@@ -1,6 +1,5 @@
 """Built-in catalogues against the standards; loading and validating user catalogues."""
 
-import numpy as np
 import pytest
 
 from planner.catalogue.pipes import load_catalogue, load_options

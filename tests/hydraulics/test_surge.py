@@ -1,6 +1,5 @@
 """Surge: Korteweg wave speed and Joukowsky rise against published values."""
 
-import numpy as np
 import pytest
 
 from planner.hydraulics import surge as sg
