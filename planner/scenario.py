@@ -62,6 +62,8 @@ class Pipe:
     rating_pa: float
     roughness_m: float | None = None
     c_factor: float | None = None
+    outside_diameter_m: float | None = None
+    elastic_modulus_pa: float | None = None
 
 
 @dataclass(frozen=True)
@@ -165,7 +167,8 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
                "low_water_above_ground_m": (_NUM, False), "yield_lps": (_NUM, False)},
     "pipe": {"material": (str, True), "label": (str, False), "inside_diameter_mm": (_NUM, True),
              "roughness_mm": (_NUM, False), "hazen_williams_c": (_NUM, False),
-             "rating_bar": (_NUM, True)},
+             "rating_bar": (_NUM, True), "outside_diameter_mm": (_NUM, False),
+             "elastic_modulus_gpa": (_NUM, False)},
     "criteria": {"friction": (str, False), "temperature_c": (_NUM, False),
                  "pipe_temperature_c": (_NUM, False),
                  "cover_m": (_NUM, False), "entrance_k": (_NUM, False),
@@ -364,6 +367,11 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
     _positive(problems, "pipe.rating_bar", pp.get("rating_bar"))
     _positive(problems, "pipe.roughness_mm", pp.get("roughness_mm"), allow_zero=True)
     _positive(problems, "pipe.hazen_williams_c", pp.get("hazen_williams_c"))
+    _positive(problems, "pipe.outside_diameter_mm", pp.get("outside_diameter_mm"))
+    _positive(problems, "pipe.elastic_modulus_gpa", pp.get("elastic_modulus_gpa"))
+    if "outside_diameter_mm" in pp and "inside_diameter_mm" in pp and \
+            pp["outside_diameter_mm"] <= pp["inside_diameter_mm"]:
+        problems.add("pipe.outside_diameter_mm", "must be larger than inside_diameter_mm")
     if "pipe" in data:
         if criteria.friction == "colebrook" and "roughness_mm" not in pp:
             problems.add("pipe.roughness_mm", "needed for criteria.friction = 'colebrook' "
@@ -377,7 +385,11 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                     inside_diameter_m=pp.get("inside_diameter_mm", 0.0) * MM,
                     rating_pa=pp.get("rating_bar", 0.0) * BAR,
                     roughness_m=pp["roughness_mm"] * MM if "roughness_mm" in pp else None,
-                    c_factor=pp.get("hazen_williams_c"))
+                    c_factor=pp.get("hazen_williams_c"),
+                    outside_diameter_m=pp["outside_diameter_mm"] * MM
+                    if "outside_diameter_mm" in pp else None,
+                    elastic_modulus_pa=pp["elastic_modulus_gpa"] * 1e9
+                    if "elastic_modulus_gpa" in pp else None)
     design = _design(sec["design"], problems) if "design" in data else None
     if "pipe" in data and "design" in data:
         problems.add("design", "give either [pipe] (check one given pipe) or [design] (let the "

@@ -220,6 +220,11 @@ def check_surge(stretches_, criteria) -> list[Finding]:
     from ..hydraulics.surge import safe_closure_time
 
     out = []
+    if any(not np.isfinite(s.surge_head_m) for s in stretches_):
+        out.append(Finding("note", "surge-unchecked",
+                           "surge is not checked for pipes without an outside diameter and an "
+                           "elastic modulus", "give pipe.outside_diameter_mm and "
+                           "pipe.elastic_modulus_gpa (or use a catalogue)"))
     for s in stretches_:
         if not np.isfinite(s.surge_head_m):
             continue

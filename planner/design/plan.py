@@ -169,11 +169,14 @@ def _chainage_of(profile: Profile, key: str, chainage: float | None, location, t
 def _given_pipe(sc: Scenario) -> PipeOption:
     p = sc.pipe
     nan = float("nan")
-    return PipeOption(material=p.material, label=p.label or p.material, outside_diameter=nan,
-                      inside_diameter=p.inside_diameter_m, wall=nan, rating=p.rating_pa,
+    od = p.outside_diameter_m if p.outside_diameter_m is not None else nan
+    return PipeOption(material=p.material, label=p.label or p.material, outside_diameter=od,
+                      inside_diameter=p.inside_diameter_m, wall=(od - p.inside_diameter_m) / 2,
+                      rating=p.rating_pa,
                       roughness=p.roughness_m if p.roughness_m is not None else nan,
                       c_factor=p.c_factor if p.c_factor is not None else nan,
-                      elastic_modulus=nan, cost_per_m=0.0, catalogue="scenario [pipe]")
+                      elastic_modulus=p.elastic_modulus_pa if p.elastic_modulus_pa is not None
+                      else nan, cost_per_m=0.0, catalogue="scenario [pipe]")
 
 
 def _candidate_data(options, flows, rho, nu, method):

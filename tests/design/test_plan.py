@@ -218,3 +218,20 @@ def test_siphon_allowed_up_to_the_vapour_limit(tmp_path, write_geojson, hump, ex
     assert (lowest > -6.2) == (expected[0] == "warning")
     assert expected in codes
     assert ("error", "air-valve-vacuum") in codes          # a crest valve there would admit air
+
+
+def test_surge_check_for_a_given_pipe(ramp_site):
+    base = 'material = "PE100"\ninside_diameter_mm = 61.4\nroughness_mm = 0.007\nrating_bar = 16\n'
+    plan = plan_scenario(load_scenario(scenario(ramp_site, pipe=base)))
+    assert any(f.code == "surge-unchecked" for f in plan.findings)
+    fast = base + "outside_diameter_mm = 75\nelastic_modulus_gpa = 1.0\n"
+    three = '[[outlets]]\nname = "end"\nchainage_m = 3500\nflow_lps = 3.0\n'
+    plan = plan_scenario(load_scenario(scenario(ramp_site, pipe=fast, outlets=three,
+                                                criteria="valve_closure_s = 2")))
+    st = plan.stretches[0]
+    # a 2 s closure is faster than 2 L / a (3.5 km / 309 m/s: 22.7 s): the full Joukowsky rise
+    assert st.wave_speed_mps == pytest.approx(309, abs=2)
+    assert st.surge_head_m == pytest.approx(st.wave_speed_mps * st.max_velocity_mps / 9.80665, rel=1e-6)
+    # 141.8 m static + a V / g = 309 x 1.01 / 9.81 = 32 m exceeds PN16 (163 m)
+    surge = [f for f in plan.errors if f.code == "surge"]
+    assert surge and "close valves over at least" in surge[0].remedy
