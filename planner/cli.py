@@ -112,6 +112,8 @@ def _report(plan, written):
         click.echo(f"    [{mark}] {o.name}: chainage {o.chainage_m:,.0f} m, "
                    f"{o.flow_m3s / LPS:.2f} L/s, residual {o.pressure_head_m:.1f} m "
                    f"(min {o.min_pressure_m:g} m)")
+        if o.basis != "flow given":
+            click.echo(f"          design flow: {o.basis}")
     if plan.stretches and plan.mode == "design":
         click.echo(f"  pipe ({plan.sizing.method}; cost {plan.pipe_cost:,.0f}, "
                    f"{plan.sizing.gap * 100:.2g} % above the split-pipe bound "

@@ -68,12 +68,16 @@ class Pipe:
 
 @dataclass(frozen=True)
 class Outlet:
+    """A draw-off point: its design (peak) flow and, when derived, how it was derived."""
+
     name: str
     flow_m3s: float
     min_pressure_m: float
     chainage_m: float | None = None
     location: tuple[float, float] | None = None
     kind: str = "outlet"
+    basis: str = "flow given"
+    daily_volume_m3: float | None = None
 
 
 @dataclass(frozen=True)
@@ -187,7 +191,8 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
                "whole_pieces": (bool, False)},
 }
 TABLE_ARRAYS = {
-    "outlets": {"name": (str, True), "flow_lps": (_NUM, True), "min_pressure_m": (_NUM, False),
+    "outlets": {"name": (str, True), "flow_lps": (_NUM, False), "demand": (dict, False),
+                "min_pressure_m": (_NUM, False),
                 "chainage_m": (_NUM, False), "location": (list, False), "kind": (str, False)},
     "break_pressure_tanks": {"name": (str, False), "chainage_m": (_NUM, True),
                              "water_above_ground_m": (_NUM, False)},
@@ -411,11 +416,16 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
             loc = None
         _positive(problems, f"{key}.flow_lps", o.get("flow_lps"))
         _positive(problems, f"{key}.chainage_m", o.get("chainage_m"), allow_zero=True)
+        flow, basis, volume = o.get("flow_lps", 0.0) * LPS, "flow given", None
+        if ("flow_lps" in o) == ("demand" in o):
+            problems.add(key, "give exactly one of flow_lps or demand = {...}")
+        elif "demand" in o:
+            flow, basis, volume = _demand(o["demand"], f"{key}.demand", problems)
         outlets.append(Outlet(
-            name=o.get("name", f"outlet {i}"), flow_m3s=o.get("flow_lps", 0.0) * LPS,
+            name=o.get("name", f"outlet {i}"), flow_m3s=flow,
             min_pressure_m=float(o.get("min_pressure_m", DEFAULT_OUTLET_MIN_PRESSURE_M)),
             chainage_m=o.get("chainage_m"), location=tuple(loc) if loc else None,
-            kind=o.get("kind", "outlet")))
+            kind=o.get("kind", "outlet"), basis=basis, daily_volume_m3=volume))
     if "outlets" in data and not outlets:
         problems.add("outlets", "at least one outlet is needed")
     if "outlets" not in data:
@@ -447,6 +457,80 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                                    engineer=p.get("engineer", ""), notes=p.get("notes", "")),
         terrain=terrain, route=route, source=source, pipe=pipe, outlets=tuple(outlets),
         tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria, design=design)
+
+
+#: Keys of each demand kind: key -> (required, default).
+DEMAND_KEYS = {
+    "domestic": {"population": (True, None), "per_capita_lpd": (True, None),
+                 "peak_factor": (False, 3.0), "growth_rate": (False, 0.0),
+                 "horizon_years": (False, 0.0)},
+    "taps": {"taps": (True, None), "tap_flow_lpm": (False, 7.5), "use_factor": (False, 1.0)},
+    "school": {"pupils": (True, None), "litres_per_day": (False, 5.0), "hours": (False, 8.0)},
+    "clinic": {"beds": (True, None), "litres_per_day": (False, 50.0), "hours": (False, 12.0)},
+    "irrigation": {"area_ha": (True, None), "crop_water_mm_per_day": (True, None),
+                   "efficiency": (True, None), "hours_per_day": (True, None)},
+}
+
+
+def _demand(d: dict, key: str, problems: _Problems):
+    """Design flow [m3/s], its basis in words and the daily volume [m3] of a demand table."""
+    from .design import demand as dm
+
+    kind = d.get("kind")
+    if kind not in DEMAND_KEYS:
+        problems.add(f"{key}.kind", f"expected one of {', '.join(DEMAND_KEYS)}, got {kind!r}")
+        return 0.0, "", None
+    spec = DEMAND_KEYS[kind]
+    vals = {}
+    for k, v in d.items():
+        if k == "kind":
+            continue
+        if k not in spec:
+            problems.add(f"{key}.{k}", f"unknown key for kind {kind!r}; known: {', '.join(spec)}")
+        elif isinstance(v, bool) or not isinstance(v, _NUM):
+            problems.add(f"{key}.{k}", f"expected a number, got {v!r}")
+        else:
+            vals[k] = float(v)
+    for k, (required, default) in spec.items():
+        if k not in vals:
+            if required:
+                problems.add(f"{key}.{k}", "missing (required)")
+                return 0.0, "", None
+            vals[k] = default
+    try:
+        if kind == "domestic":
+            q = dm.domestic_flow(vals["population"], vals["per_capita_lpd"],
+                                 peak_factor=vals["peak_factor"], growth_rate=vals["growth_rate"],
+                                 horizon_years=vals["horizon_years"])
+            people = dm.future_population(vals["population"], vals["growth_rate"],
+                                          vals["horizon_years"])
+            volume = people * vals["per_capita_lpd"] * 1e-3
+            basis = (f"{people:,.0f} people in {vals['horizon_years']:g} years x "
+                     f"{vals['per_capita_lpd']:g} L/day x peak factor {vals['peak_factor']:g}")
+        elif kind == "taps":
+            q = dm.tap_stand_flow(int(vals["taps"]), tap_flow=vals["tap_flow_lpm"] * 1e-3 / 60,
+                                  use_factor=vals["use_factor"])
+            volume = None
+            basis = (f"{vals['taps']:g} taps x {vals['tap_flow_lpm']:g} L/min x use factor "
+                     f"{vals['use_factor']:g}")
+        elif kind in ("school", "clinic"):
+            count = vals["pupils" if kind == "school" else "beds"]
+            q = dm.institution_flow(count, vals["litres_per_day"], hours=vals["hours"])
+            volume = count * vals["litres_per_day"] * 1e-3
+            basis = (f"{count:g} {'pupils' if kind == 'school' else 'beds'} x "
+                     f"{vals['litres_per_day']:g} L/day over {vals['hours']:g} h")
+        else:
+            q = dm.irrigation_flow(vals["area_ha"], vals["crop_water_mm_per_day"],
+                                   efficiency=vals["efficiency"], hours_per_day=vals["hours_per_day"])
+            volume = q * vals["hours_per_day"] * 3600.0
+            basis = (f"{vals['area_ha']:g} ha x {vals['crop_water_mm_per_day']:g} mm/day / "
+                     f"efficiency {vals['efficiency']:g} over {vals['hours_per_day']:g} h/day")
+    except InputError as exc:
+        problems.add(key, str(exc))
+        return 0.0, "", None
+    if not q > 0:
+        problems.add(key, "gives no flow")
+    return q, basis, volume
 
 
 def _design(d: dict, problems: _Problems) -> Design:

@@ -89,3 +89,18 @@ def test_bad_files(tmp_path):
         load_scenario(tmp_path / "nope.toml")
     with pytest.raises(InputFileError, match="not valid TOML.*line 2"):
         load_scenario(write(tmp_path, "[project]\nname = \n"))
+
+
+def test_outlet_demand_tables(tmp_path):
+    text = GOOD.replace("flow_lps = 0.5", 'demand = { kind = "domestic", population = 500, '
+                        'per_capita_lpd = 30, peak_factor = 2.5 }')
+    sc = load_scenario(write(tmp_path, text))
+    assert sc.outlets[0].flow_m3s == pytest.approx(500 * 30e-3 * 2.5 / 86400)
+    assert sc.outlets[0].daily_volume_m3 == pytest.approx(15.0)
+    assert "500 people" in sc.outlets[0].basis
+    for bad, match in [('demand = { kind = "pond" }', "expected one of domestic"),
+                       ('demand = { kind = "taps" }', r"demand.taps: missing"),
+                       ('demand = { kind = "taps", taps = 2, colour = 1 }', "unknown key"),
+                       ('flow_lps = 1\ndemand = { kind = "taps", taps = 2 }', "exactly one of")]:
+        with pytest.raises(InputError, match=match):
+            load_scenario(write(tmp_path, GOOD.replace("flow_lps = 0.5", bad)))

@@ -193,14 +193,31 @@ def check_tank(name: str, chainage: float, arrival_hgl: float, level: float) -> 
         "use a larger pipe upstream or place the tank lower", chainage, chainage)]
 
 
-def check_yield(total_flow: float, yield_flow: float | None) -> list[Finding]:
-    """Design flow against the source's safe yield."""
+def check_yield(total_flow: float, yield_flow: float | None,
+                daily_volume: float | None = None) -> list[Finding]:
+    """Design flow against the source's safe yield.
+
+    Where the peak flow exceeds the yield but the day's volume does not, a balancing
+    tank can bridge the peaks: its size is found from the mass curve of the typical
+    day (:func:`planner.design.demand.balancing_storage`).
+    """
     if yield_flow is None:
         return [Finding("note", "yield-unknown", "the source's yield is not stated, so the "
                         "design flow is not checked against it",
                         "measure the yield in the dry season and add source.yield_lps")]
     if total_flow <= yield_flow:
         return []
+    if daily_volume is not None and daily_volume <= yield_flow * 86400.0:
+        from .demand import TYPICAL_DAY, balancing_storage
+
+        storage = balancing_storage(TYPICAL_DAY, daily_volume, yield_flow)
+        return [Finding(
+            "warning", "storage-needed",
+            f"peak design flow {total_flow / LPS:.2f} L/s is above the source yield "
+            f"{yield_flow / LPS:.2f} L/s, but the day's use ({daily_volume:,.1f} m3) is within "
+            f"it ({yield_flow * 86400:,.1f} m3): a balancing tank of at least {storage:,.1f} m3 "
+            "between source and users bridges the peaks (mass curve of a typical rural day)",
+            "build the tank, size the line below it for the peak and above it for the yield")]
     return [Finding(
         "error", "yield-exceeded",
         f"design flow {total_flow / LPS:.2f} L/s exceeds the source yield "

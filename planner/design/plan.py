@@ -54,6 +54,7 @@ class OutletResult:
     ground_m: float
     pressure_head_m: float
     min_pressure_m: float
+    basis: str = "flow given"
 
     @property
     def ok(self) -> bool:
@@ -374,7 +375,7 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     outlets = tuple(OutletResult(
         name=o.name, kind=o.kind, chainage_m=float(ch[j]), index=int(remap[j]), flow_m3s=o.flow_m3s,
         ground_m=float(prof.ground_m[j]), pressure_head_m=float(energy.pressure_head[remap[j]]),
-        min_pressure_m=o.min_pressure_m) for o, j in placed)
+        min_pressure_m=o.min_pressure_m, basis=o.basis) for o, j in placed)
     tanks = tuple(TankResult(name=name, chainage_m=float(ch[s.index]), index=int(remap[s.index]),
                              water_level_m=s.level,
                              arrival_hgl_m=float(energy.arrival_hgl[remap[s.index]]), rule=s.rule)
@@ -391,7 +392,9 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
 
     # -- checks, each at every profile point
     total = float(sum(o.flow_m3s for o in sc.outlets))
-    findings = check_yield(total, sc.source.yield_m3s)
+    volumes = [o.daily_volume_m3 for o in sc.outlets]
+    findings = check_yield(total, sc.source.yield_m3s,
+                           sum(volumes) if all(v is not None for v in volumes) else None)
     findings += check_line(chainage=rch, pressure_head=energy.pressure_head,
                            static_pressure_head=energy.static_pressure_head,
                            velocity=energy.velocity, flowing=energy.flow > 0,

@@ -123,6 +123,7 @@ def plan_to_dict(plan: Plan) -> dict:
         },
         "outlets": [{
             "name": o.name, "kind": o.kind, "chainage_m": _f(o.chainage_m, 2),
+            "flow_basis": o.basis,
             "point_index": o.index, "flow_lps": _f(o.flow_m3s / LPS, 4),
             "ground_m": _f(o.ground_m), "residual_pressure_head_m": _f(o.pressure_head_m),
             "residual_pressure_bar": _f(o.pressure_head_m * bar_per_m, 3),

@@ -235,3 +235,16 @@ def test_surge_check_for_a_given_pipe(ramp_site):
     # 141.8 m static + a V / g = 309 x 1.01 / 9.81 = 32 m exceeds PN16 (163 m)
     surge = [f for f in plan.errors if f.code == "surge"]
     assert surge and "close valves over at least" in surge[0].remedy
+
+
+def test_peak_above_yield_needs_storage_not_more_water(ramp_site):
+    # 2,000 people x 40 L/day x peak 3 = 2.78 L/s at peak, 80 m3/day (0.93 L/s on average)
+    outlets = ('[[outlets]]\nname = "village"\nchainage_m = 3500\n'
+               'demand = { kind = "domestic", population = 2000, per_capita_lpd = 40, peak_factor = 3 }\n')
+    src = "top_water_above_ground_m = 1.0\nlow_water_above_ground_m = 0.5\nyield_lps = 1.5"
+    plan = plan_scenario(load_scenario(scenario(ramp_site, outlets=outlets, source=src)))
+    f = next(f for f in plan.findings if f.code == "storage-needed")
+    assert f.severity == "warning" and "balancing tank of at least" in f.message
+    src = src.replace("yield_lps = 1.5", "yield_lps = 0.5")    # 43 m3/day < 80 m3/day
+    plan = plan_scenario(load_scenario(scenario(ramp_site, outlets=outlets, source=src)))
+    assert any(f.code == "yield-exceeded" and f.severity == "error" for f in plan.findings)
