@@ -122,6 +122,9 @@ def _report(plan, written):
             click.echo(f"    {st.chainage_m:>8,.0f} to {st.chainage_end_m:>8,.0f} m  "
                        f"{st.option.label:<26} {st.length_m:>8,.1f} m  static max "
                        f"{st.max_static_head_m:5.1f} m of {st.rating_head_m:5.1f} m")
+        if plan.binding_chainages_m:
+            points = ", ".join(f"{c:,.0f}" for c in plan.binding_chainages_m)
+            click.echo(f"  critical points (the pressure limit binds there): chainage {points} m")
     if plan.tanks:
         click.echo("  break-pressure tanks:")
         for t in plan.tanks:
