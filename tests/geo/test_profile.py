@@ -39,7 +39,8 @@ def test_default_spacing_is_the_cell_size(plane_dem):
 
 def test_geodesic_chainage_published_value(tmp_path):
     # Vincenty (1975) test line as worked in the Geoscience Australia GDA94 Technical
-    # Manual: Flinders Peak (-37 57 03.72030, 144 25 29.52440) to Buninyong
+    # Manual (coordinates and distance from memory; pyproj's Geod agrees below):
+    # Flinders Peak (-37 57 03.72030, 144 25 29.52440) to Buninyong
     # (-37 39 10.15610, 143 55 35.38390) on GRS80/WGS84: s = 54 972.271 m.
     lat1 = -(37 + 57 / 60 + 3.72030 / 3600)
     lon1 = 144 + 25 / 60 + 29.52440 / 3600
