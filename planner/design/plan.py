@@ -338,29 +338,34 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                                        options)
         hv_k = np.min(np.where(allowed_k, hv_cand[splits[:-1]], np.inf), axis=1)
         extra = np.zeros(n)
-        for _ in range(12):
-            problem = _problem(prof, options, allowed_k, loss_cand[splits[:-1]], hv_k[piece_of_seg],
-                               surfaces, reaches, required + extra, point_k, cr, splits)
-            if sc.design.one_size_per_reach:
-                sizing = solve_sizing(problem, whole="reach")
-            elif sc.design.whole_pieces:
-                sizing = solve_whole_pieces(problem)
-            else:
-                sizing = solve_sizing(problem)
-            refined, seg_opt = _build_line(prof, problem, sizing.lengths, options)
-            energy, remap, surfaces_r, req_r = _exact_energy(
-                prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr)
-            # the programme checks pressure with the velocity heads it was told; recheck
-            # every point of the built line (size changes included) and tighten the
-            # programme where the built line falls short
-            short = req_r - energy.pressure_head
-            used = np.max(np.where(sizing.lengths > 1e-9, hv_cand[splits[:-1]], 0.0), axis=1)
-            if np.all(short <= 5e-4) and np.all(used <= hv_k + 1e-9):
-                break
-            hv_k = np.maximum(hv_k, used)
-            for i in np.flatnonzero(short > 5e-4):
-                j = min(int(np.searchsorted(ch, refined.chainage_m[i] - 1e-9)), n - 1)
-                extra[j] += short[i] + 1e-3
+        final = ("reach" if sc.design.one_size_per_reach else
+                 "pieces" if sc.design.whole_pieces else "lp")
+        # the LP converges the velocity heads and tightenings cheaply; the final method
+        # (a MILP where the rules ask for whole choices) then starts from them
+        converged = False
+        for stage in dict.fromkeys(("lp", final)):
+            for _ in range(12):
+                problem = _problem(prof, options, allowed_k, loss_cand[splits[:-1]],
+                                   hv_k[piece_of_seg], surfaces, reaches, required + extra,
+                                   point_k, cr, splits)
+                sizing = (solve_sizing(problem, whole="reach") if stage == "reach" else
+                          solve_whole_pieces(problem) if stage == "pieces" else
+                          solve_sizing(problem))
+                refined, seg_opt = _build_line(prof, problem, sizing.lengths, options)
+                energy, remap, surfaces_r, req_r = _exact_energy(
+                    prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr)
+                # the programme checks pressure with the velocity heads it was told; recheck
+                # every point of the built line (size changes included) and tighten the
+                # programme where the built line falls short
+                short = req_r - energy.pressure_head
+                used = np.max(np.where(sizing.lengths > 1e-9, hv_cand[splits[:-1]], 0.0), axis=1)
+                converged = bool(np.all(short <= 5e-4) and np.all(used <= hv_k + 1e-9))
+                if converged:
+                    break
+                hv_k = np.maximum(hv_k, used)
+                for i in np.flatnonzero(short > 5e-4):
+                    j = min(int(np.searchsorted(ch, refined.chainage_m[i] - 1e-9)), n - 1)
+                    extra[j] += short[i] + 1e-3
         single_cost = best_single_size(problem)[0]
     if not design:
         energy, remap, surfaces_r, req_r = _exact_energy(
@@ -368,8 +373,6 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     rch = refined.chainage_m
     seg_rating = rating_head[seg_opt]
     pt_rating = np.minimum(np.append(seg_rating, seg_rating[-1]), np.insert(seg_rating, 0, seg_rating[0]))
-    req_r = np.interp(rch, ch, required)
-    req_r[remap] = required
 
     # -- results
     outlets = tuple(OutletResult(
@@ -414,6 +417,12 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                 f"the air valve at chainage {f.chainage_m:,.0f} m sits where the pressure is "
                 f"{energy.pressure_head[f.index]:.1f} m: it would let air in and break the flow",
                 "lower the line there, or use a larger pipe upstream", f.chainage_m, f.chainage_m))
+    if design and not converged:
+        findings.append(Finding(
+            "warning", "sizing-recheck",
+            "the sized line was rechecked point by point 12 times and still falls short of a "
+            "limit somewhere (see the other findings)",
+            "use split_spacing_m = 0 (a split point at every profile point) or a finer spacing"))
     if design and sizing is not None:
         findings.append(Finding(
             "note", "sizing",
