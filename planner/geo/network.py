@@ -1,0 +1,234 @@
+"""A branched route: several polylines joined into a tree rooted at the source.
+
+Lines are joined where their ends lie within a snapping tolerance of each other, or
+where an end lies on another line (a tee part-way along a main, which is then split
+there).  The tree is rooted at the end nearest the source; lines drawn against the flow
+are turned round (and reported).  Loops, disconnected pieces and duplicate lines are
+errors naming where they are: a looped network needs a network solver, which this tool
+does not pretend to be.  Lengths for snapping are measured in the UTM zone of the
+network (pyproj).
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import shapely
+from pyproj import Transformer
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
+from scipy.spatial import cKDTree
+from shapely.geometry import LineString, Point
+from shapely.ops import substring
+
+from ..errors import InputError, InputFileError
+from .profile import utm_crs_for
+from .route import WGS84, VECTOR_SUFFIXES, _check_lonlat
+
+
+@dataclass(frozen=True)
+class NetworkLink:
+    """One pipe of the tree, oriented with the flow (from its upstream node)."""
+
+    id: int
+    line: LineString                 # lon/lat, upstream to downstream
+    upstream: int
+    downstream: int
+    name: str = ""
+    turned: bool = False             # drawn against the flow and turned round
+
+
+@dataclass(frozen=True)
+class RouteNetwork:
+    """Nodes (lon, lat) and links of a tree; ``root`` is the source node."""
+
+    nodes: np.ndarray                # (N, 2) lon, lat
+    links: tuple[NetworkLink, ...]
+    root: int
+    notes: tuple[str, ...] = field(default=())
+
+    def children(self, node: int) -> list[NetworkLink]:
+        return [k for k in self.links if k.upstream == node]
+
+    @property
+    def leaves(self) -> list[int]:
+        ups = {k.upstream for k in self.links}
+        return sorted({k.downstream for k in self.links} - ups)
+
+    def path_to(self, node: int) -> list[NetworkLink]:
+        """Links from the root down to ``node``, in flow order."""
+        into = {k.downstream: k for k in self.links}
+        path = []
+        while node != self.root:
+            link = into[node]
+            path.append(link)
+            node = link.upstream
+        return path[::-1]
+
+
+def read_lines(path: str | Path) -> list[tuple[LineString, str]]:
+    """Every line of a GeoJSON, KML or GPX file, in lon/lat, with its name if any."""
+    import pyogrio
+
+    p = Path(path)
+    if not p.is_file():
+        raise InputFileError(f"{p}: network file not found")
+    if p.suffix.lower() not in VECTOR_SUFFIXES:
+        raise InputFileError(f"{p}: a network must be GeoJSON, KML or GPX")
+    out = []
+    try:
+        layers = [str(name) for name, _ in pyogrio.list_layers(p)]
+        for layer in layers:
+            frame = pyogrio.read_dataframe(p, layer=layer)
+            if frame.crs is not None and not frame.crs.equals(WGS84):
+                frame = frame.to_crs(WGS84)
+            names = frame["name"] if "name" in frame else [""] * len(frame)
+            for geom, name in zip(frame.geometry, names):
+                if geom is None or geom.is_empty:
+                    continue
+                parts = geom.geoms if geom.geom_type == "MultiLineString" else [geom]
+                for part in parts:
+                    if part.geom_type == "LineString":
+                        out.append((LineString(np.asarray(part.coords)[:, :2]),
+                                    str(name) if name is not None else ""))
+    except InputFileError:
+        raise
+    except Exception as exc:
+        raise InputFileError(f"{p}: cannot read this file ({exc})") from None
+    if not out:
+        raise InputFileError(f"{p}: no lines in the file")
+    return out
+
+
+def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
+               source: tuple[float, float] | None = None,
+               snap_tolerance_m: float = 5.0) -> RouteNetwork:
+    """Join lines into a tree rooted at the source.
+
+    Parameters
+    ----------
+    lines : list
+        LineStrings in lon/lat, or (LineString, name) pairs.
+    source : (lon, lat), optional
+        Where the water comes from; default the start of the first line.
+    snap_tolerance_m : float
+        Line ends closer than this are the same node; an end closer than this to another
+        line joins it there [m].
+
+    Raises
+    ------
+    InputError
+        For loops, disconnected pieces, duplicate lines or a source off the network,
+        naming the place.
+    """
+    pairs = [(g, "") if isinstance(g, LineString) else g for g in lines]
+    if not pairs:
+        raise InputError("a network needs at least one line")
+    for k, (g, _) in enumerate(pairs):
+        _check_lonlat(np.asarray(g.coords)[:, :2], f"line {k + 1}")
+        if len(g.coords) < 2 or g.length == 0:
+            raise InputError(f"line {k + 1} has fewer than two distinct points")
+    allxy = np.vstack([np.asarray(g.coords)[:, :2] for g, _ in pairs])
+    work = utm_crs_for(float(allxy[:, 0].mean()), float(allxy[:, 1].mean()))
+    fwd = Transformer.from_crs(WGS84, work, always_xy=True)
+    back = Transformer.from_crs(work, WGS84, always_xy=True)
+
+    def to_m(g):
+        xy = np.asarray(g.coords)[:, :2]
+        return LineString(np.column_stack(fwd.transform(xy[:, 0], xy[:, 1])))
+
+    metric = [(to_m(g), name) for g, name in pairs]
+    notes = []
+    # tees part-way along a line: split the line where another line's end touches it
+    changed = True
+    while changed:
+        changed = False
+        ends = [Point(g.coords[i]) for g, _ in metric for i in (0, -1)]
+        for k, (g, name) in enumerate(metric):
+            for e in ends:
+                d_along = g.project(e)
+                if g.distance(e) <= snap_tolerance_m and snap_tolerance_m < d_along < g.length - snap_tolerance_m:
+                    a, b = substring(g, 0, d_along), substring(g, d_along, g.length)
+                    metric[k:k + 1] = [(a, name), (b, name)]
+                    notes.append(f"line {name or k + 1!s} split where a branch joins it")
+                    changed = True
+                    break
+            if changed:
+                break
+    # snap ends into nodes
+    ends = np.array([g.coords[i][:2] for g, _ in metric for i in (0, -1)])
+    tree = cKDTree(ends)
+    pairs_close = np.array(sorted(tree.query_pairs(snap_tolerance_m)), dtype=np.int64).reshape(-1, 2)
+    m = ends.shape[0]
+    graph = coo_matrix((np.ones(len(pairs_close)), (pairs_close[:, 0], pairs_close[:, 1])),
+                       shape=(m, m))
+    _, label = connected_components(graph, directed=False)
+    node_xy = np.array([ends[label == c].mean(axis=0) for c in range(label.max() + 1)])
+    edges = [(int(label[2 * k]), int(label[2 * k + 1])) for k in range(len(metric))]
+    seen = {}
+    for k, (a, b) in enumerate(edges):
+        if a == b:
+            raise InputError(f"line {k + 1} starts and ends at the same place (a loop)")
+        key = tuple(sorted((a, b)))
+        if key in seen:
+            lon, lat = back.transform(*node_xy[a])
+            raise InputError(f"lines {seen[key] + 1} and {k + 1} both join the same two points "
+                             f"(one near lon {lon:.6f}, lat {lat:.6f}): a loop or a duplicate; "
+                             "keep one line, or solve the looped network elsewhere")
+        seen[key] = k
+    n = node_xy.shape[0]
+    adj = coo_matrix((np.ones(len(edges)), ([a for a, _ in edges], [b for _, b in edges])),
+                     shape=(n, n))
+    ncomp, comp = connected_components(adj, directed=False)
+    # the root: nearest node to the source
+    if source is not None:
+        sx, sy = fwd.transform(*source)
+        d = np.hypot(node_xy[:, 0] - sx, node_xy[:, 1] - sy)
+        root = int(np.argmin(d))
+        if d[root] > max(snap_tolerance_m, 50.0):
+            raise InputError(f"the source {list(source)} is {d[root]:,.0f} m from the nearest line "
+                             "end; start a line at the source")
+    else:
+        root = edges[0][0]
+    if ncomp > 1:
+        apart = [c for c in range(ncomp) if c != comp[root]]
+        where = []
+        for c in apart:
+            lon, lat = back.transform(*node_xy[np.flatnonzero(comp == c)[0]])
+            where.append(f"near lon {lon:.6f}, lat {lat:.6f}")
+        raise InputError(f"{len(apart)} piece(s) of the network do not connect to the source "
+                         f"({'; '.join(where)}): join them within {snap_tolerance_m:g} m or "
+                         "raise the snapping tolerance")
+    if len(edges) != n - 1:
+        raise InputError(f"the network has {len(edges) - (n - 1)} loop(s): {len(edges)} lines "
+                         f"join {n} points; a tree has one line fewer than points")
+    # orient every line away from the root (breadth first)
+    incident = {i: [] for i in range(n)}
+    for k, (a, b) in enumerate(edges):
+        incident[a].append(k)
+        incident[b].append(k)
+    links, queue, visited = [], deque([root]), {root}
+    while queue:
+        u = queue.popleft()
+        for k in incident[u]:
+            a, b = edges[k]
+            v = b if a == u else a
+            if v in visited:
+                continue
+            visited.add(v)
+            queue.append(v)
+            g, name = metric[k]
+            turned = a != u
+            if turned:
+                g = shapely.reverse(g)
+                notes.append(f"line {name or k + 1!s} was drawn against the flow and is turned round")
+            xy = np.asarray(g.coords)
+            lon, lat = back.transform(xy[:, 0], xy[:, 1])
+            links.append(NetworkLink(id=len(links), line=LineString(np.column_stack([lon, lat])),
+                                     upstream=u, downstream=v, name=name, turned=turned))
+    lon, lat = back.transform(node_xy[:, 0], node_xy[:, 1])
+    return RouteNetwork(nodes=np.column_stack([lon, lat]), links=tuple(links), root=root,
+                        notes=tuple(notes))
