@@ -130,6 +130,22 @@ class Plan:
     def pipe_cost(self) -> float:
         return float(sum(s.cost for s in self.stretches))
 
+    @property
+    def max_static(self) -> tuple[float, float]:
+        """Highest static pressure head on the line [m] and its chainage [m].
+
+        Includes the pipe arriving at each tank, which still sees the level upstream.
+        """
+        e, prof = self.energy, self.profile
+        heads = list(e.static_pressure_head)
+        where = list(prof.chainage_m)
+        levels = [self.source_top_level_m] + [t.water_level_m for t in self.tanks]
+        for t, level in zip(self.tanks, levels[:-1]):
+            heads.append(level - float(prof.pipe_m[t.index]))
+            where.append(float(prof.chainage_m[t.index]))
+        k = int(np.nanargmax(heads))
+        return float(heads[k]), float(where[k])
+
 
 def build_profile(scenario: Scenario, dem=None) -> Profile:
     """The scenario's route profile: sampled from the DEM, or taken from a CSV survey."""
@@ -398,8 +414,13 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     volumes = [o.daily_volume_m3 for o in sc.outlets]
     findings = check_yield(total, sc.source.yield_m3s,
                            sum(volumes) if all(v is not None for v in volumes) else None)
+    # at a tank, the pipe arriving still carries the static head of the level upstream
+    static_check = energy.static_pressure_head.copy()
+    for prev, f in zip(surfaces_r[:-1], surfaces_r[1:]):
+        static_check[f.index] = max(static_check[f.index],
+                                    prev.static_level - float(refined.pipe_m[f.index]))
     findings += check_line(chainage=rch, pressure_head=energy.pressure_head,
-                           static_pressure_head=energy.static_pressure_head,
+                           static_pressure_head=static_check,
                            velocity=energy.velocity, flowing=energy.flow > 0,
                            rating_head=pt_rating, criteria=cr, elevation=refined.pipe_m,
                            temperature_c=cr.temperature_c,
