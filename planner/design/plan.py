@@ -416,13 +416,14 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                            sum(volumes) if all(v is not None for v in volumes) else None)
     # at a tank, the pipe arriving still carries the static head of the level upstream
     static_check = energy.static_pressure_head.copy()
+    rating_check = pt_rating.copy()
     for prev, f in zip(surfaces_r[:-1], surfaces_r[1:]):
-        static_check[f.index] = max(static_check[f.index],
-                                    prev.static_level - float(refined.pipe_m[f.index]))
+        static_check[f.index] = prev.static_level - float(refined.pipe_m[f.index])
+        rating_check[f.index] = seg_rating[f.index - 1]
     findings += check_line(chainage=rch, pressure_head=energy.pressure_head,
                            static_pressure_head=static_check,
                            velocity=energy.velocity, flowing=energy.flow > 0,
-                           rating_head=pt_rating, criteria=cr, elevation=refined.pipe_m,
+                           rating_head=rating_check, criteria=cr, elevation=refined.pipe_m,
                            temperature_c=cr.temperature_c,
                            surface_index=tuple(f.index for f in surfaces_r))
     for o in outlets:
