@@ -153,6 +153,16 @@ def build_map(plan: Plan, *, terrain=None):
              f"<b>{esc(sc.project.name)}</b><br>Planning aid only: confirm levels in the field; "
              f"local codes and a licensed engineer take precedence.</div>")
     m.get_root().html.add_child(folium.Element(title))
+    dot = ("<span style='display:inline-block;width:11px;height:11px;border-radius:6px;"
+           "border:1px solid #000;background:{};margin-right:5px'></span>{}<br>")
+    legend = "".join(dot.format(c, esc(t)) for c, t in (
+        ("#1f4e9c", "source"), ("#ffffff", "break-pressure tank"),
+        ("#2e8b57", "outlet, pressure met"), ("#c0392b", "outlet, pressure short"),
+        ("#f1c40f", "air valve"), ("#8e44ad", "washout")))
+    m.get_root().html.add_child(folium.Element(
+        "<div id='plan-legend' style='position:fixed;bottom:64px;left:10px;z-index:1000;"
+        "background:white;padding:6px 10px;border:1px solid #888;font:12px sans-serif'>"
+        f"{legend}</div>"))
     return m
 
 
