@@ -32,8 +32,8 @@ from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, line_energy, segment_flows
 from ..scenario import Scenario
 from ..units import G
-from .checks import (Finding, check_line, check_outlet, check_surge, check_tank, check_yield,
-                     stretches as runs)
+from .checks import (Finding, _where, check_line, check_outlet, check_surge, check_tank,
+                     check_yield, stretches as runs)
 from .features import Feature, place_features
 from .sizing import (SizingProblem, SizingResult, best_single_size, solve_sizing,
                      solve_whole_pieces)
@@ -534,10 +534,6 @@ def _cheapest_per_size(allowed: NDArray, options: list[PipeOption]) -> NDArray:
         ok = np.isfinite(sub[np.arange(sub.shape[0]), best])
         out[np.flatnonzero(ok), cols[best[ok]]] = True
     return out
-
-
-def _where(ch, a, b):
-    return f"at chainage {ch[a]:,.0f} m" if a == b else f"from chainage {ch[a]:,.0f} to {ch[b]:,.0f} m"
 
 
 def _feasibility(prof, options, allowed, flows, surfaces, reaches, required, point_k,
