@@ -287,7 +287,7 @@ def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray 
                         constraints=ncons + nt + n_units)
 
 
-def solve_whole_pieces(p: SizingProblem, *, rounds: int = 6, time_limit: float = 30.0) -> SizingResult:
+def solve_whole_pieces(p: SizingProblem, *, rounds: int = 6, time_limit: float = 10.0) -> SizingResult:
     """The split-pipe optimum, then one candidate per sub-stretch where the LP split one.
 
     The LP optimum is a lower bound; sub-stretches it made of several pipes get a
