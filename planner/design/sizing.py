@@ -63,9 +63,12 @@ class SizingProblem:
     group : ndarray of int, shape (J,)
         Diameter group of each candidate (for one size per reach).
     reaches : list of (int, int)
-        First and last point of each reach between free surfaces (both are splits).
+        First and last point of each reach between free surfaces (both are splits).  For
+        a tree, the points of all links are numbered one after another, each link's ends
+        are splits, and reaches are listed parents first.
     start_energy : ndarray, shape (R,)
-        Energy head at each reach's first point [m].
+        Energy head at each reach's first point [m] (ignored where ``parent_point`` links
+        the reach to another).
     min_energy : ndarray, shape (n,)
         Lowest energy head allowed at each point [m] (pipe + pressure + velocity head).
     arrival_min_energy : ndarray, shape (R,)
@@ -73,6 +76,10 @@ class SizingProblem:
         level plus its inlet head and velocity head).
     fitting_loss : ndarray, shape (n,)
         Head lost in fittings at each split point [m] (fittings sit at split points).
+    parent_point : ndarray of int, shape (R,), optional
+        For a branch of a tree: the point (the last point of an earlier reach) whose
+        energy head the reach starts from, at a junction with no free surface; -1 where
+        the reach starts at a free surface (``start_energy``).
     """
 
     splits: NDArray[np.int64]
@@ -86,6 +93,11 @@ class SizingProblem:
     min_energy: NDArray[np.float64]
     arrival_min_energy: NDArray[np.float64]
     fitting_loss: NDArray[np.float64]
+    parent_point: NDArray[np.int64] | None = None
+
+    def linked(self, ri: int) -> int:
+        """The junction point a reach starts from, or -1 for a free surface."""
+        return -1 if self.parent_point is None else int(self.parent_point[ri])
 
     @property
     def piece_length(self) -> NDArray[np.float64]:
@@ -109,6 +121,11 @@ class SizingResult:
     constraints: int = 0
 
 
+def _ends_at_tank(p: SizingProblem, ri: int) -> bool:
+    """Whether a reach ends at a free surface (it has an arrival requirement)."""
+    return bool(np.isfinite(p.arrival_min_energy[ri]))
+
+
 def _reach_pieces(p: SizingProblem):
     """For each reach: indices of its sub-stretches (into splits)."""
     out = []
@@ -128,24 +145,39 @@ def _build(p: SizingProblem):
     first = np.searchsorted(piece_idx[order], np.arange(K))
     last = np.searchsorted(piece_idx[order], np.arange(K), side="right")
     pieces_of = _reach_pieces(p)
-    head_of = []
-    offset = nx
+    in_reach = np.zeros(K, dtype=bool)
     for ks in pieces_of:
-        head_of.append(offset + np.arange(ks.size + 1))     # split points of this reach
-        offset += ks.size + 1
+        in_reach[ks] = True
+    head_of = []
+    end_var = {}
+    offset = nx
+    for ri, (ks, (a, b)) in enumerate(zip(pieces_of, p.reaches)):
+        parent = p.linked(ri)
+        if parent >= 0:
+            if parent not in end_var:
+                raise ValueError(f"reach {ri} starts from point {parent}, which ends no earlier reach")
+            heads = np.concatenate([[end_var[parent]], offset + np.arange(ks.size)])
+            offset += ks.size
+        else:
+            heads = offset + np.arange(ks.size + 1)     # split points of this reach
+            offset += ks.size + 1
+        head_of.append(heads)
+        end_var[b] = int(heads[-1])
     nvar = offset
-    lb, ub = np.zeros(nvar), np.full(nvar, np.inf)
+    lb, ub = np.full(nvar, -np.inf), np.full(nvar, np.inf)
+    lb[:nx] = 0.0
     eq_r, eq_c, eq_v, eq_b = [], [], [], []
     in_r, in_c, in_v, in_b, in_point = [], [], [], [], []
-    row = 0
     # each sub-stretch is built
-    eq_r.append(piece_idx)
-    eq_c.append(np.arange(nx))
-    eq_v.append(np.ones(nx))
-    eq_b.append(p.piece_length)
-    row = K
+    built = np.flatnonzero(in_reach[piece_idx])
+    rows_built = np.cumsum(in_reach) - 1
+    eq_r.append(rows_built[piece_idx[built]])
+    eq_c.append(built)
+    eq_v.append(np.ones(built.size))
+    eq_b.append(p.piece_length[in_reach])
+    row = int(in_reach.sum())
     irow = 0
-    head_point = np.empty(nvar - nx, dtype=np.int64)
+    head_point = np.full(nvar - nx, -1, dtype=np.int64)
     for ri, ks in enumerate(pieces_of):
         heads = head_of[ri]
         pts = p.splits[ks[0]:ks[-1] + 2]
@@ -156,7 +188,7 @@ def _build(p: SizingProblem):
             eq_r += [np.full(sel.size + 2, row)]
             eq_c += [np.concatenate([sel, [heads[kk + 1], heads[kk]]])]
             eq_v += [np.concatenate([p.unit_loss[k, opt_idx[sel]], [1.0, -1.0]])]
-            m = p.fitting_loss[w] if (ri == len(pieces_of) - 1 or kk < ks.size - 1) else 0.0
+            m = p.fitting_loss[w] if (not _ends_at_tank(p, ri) or kk < ks.size - 1) else 0.0
             eq_b.append(np.array([-m]))
             row += 1
             # pressure inside the sub-stretch, on the chord of the HGL
@@ -170,10 +202,12 @@ def _build(p: SizingProblem):
                     in_b.append(-p.min_energy[i])
                     in_point.append(i)
                     irow += 1
-        lb[heads] = p.min_energy[pts]
-        if ri < len(pieces_of) - 1:
+        own = heads[1:] if p.linked(ri) >= 0 else heads
+        lb[own] = p.min_energy[pts[-own.size:]]
+        if _ends_at_tank(p, ri):
             lb[heads[-1]] = max(p.min_energy[pts[-1]], p.arrival_min_energy[ri])
-        lb[heads[0]] = ub[heads[0]] = p.start_energy[ri]
+        if p.linked(ri) < 0:
+            lb[heads[0]] = ub[heads[0]] = p.start_energy[ri]
     A_eq = csr_matrix((np.concatenate(eq_v), (np.concatenate(eq_r), np.concatenate(eq_c))),
                       shape=(row, nvar))
     b_eq = np.concatenate(eq_b)
@@ -240,7 +274,10 @@ def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray 
             unit_of_piece[ks] = ri
         n_units = len(p.reaches)
     else:
-        chosen = np.ones(K, dtype=bool) if pieces is None else np.asarray(pieces, dtype=bool)
+        in_reach = np.zeros(K, dtype=bool)
+        for ks in _reach_pieces(p):
+            in_reach[ks] = True
+        chosen = in_reach if pieces is None else np.asarray(pieces, dtype=bool) & in_reach
         unit_of_piece = np.full(K, -1, dtype=np.int64)
         unit_of_piece[chosen] = np.arange(int(chosen.sum()))
         n_units = int(chosen.sum())
@@ -314,27 +351,33 @@ def solve_whole_pieces(p: SizingProblem, *, rounds: int = 6, time_limit: float =
 
 def energies(p: SizingProblem, lengths: NDArray) -> list[NDArray]:
     """Energy heads at the split points of each reach, under the programme's own model."""
-    out = []
+    out, at_end = [], {}
     for ri, ks in enumerate(_reach_pieces(p)):
         loss = np.sum(np.where(p.allowed[ks], p.unit_loss[ks], 0.0) * lengths[ks], axis=1)
         w = p.splits[ks + 1]
         m = p.fitting_loss[w].copy()
-        if ri < len(p.reaches) - 1:
+        if _ends_at_tank(p, ri):
             m[-1] = 0.0
-        out.append(p.start_energy[ri] - np.concatenate([[0.0], np.cumsum(loss + m)]))
+        parent = p.linked(ri)
+        start = at_end[parent] if parent >= 0 else p.start_energy[ri]
+        h = start - np.concatenate([[0.0], np.cumsum(loss + m)])
+        at_end[p.reaches[ri][1]] = h[-1]
+        out.append(h)
     return out
 
 
 def is_feasible(p: SizingProblem, lengths: NDArray, tol: float = 1e-6) -> bool:
     """Whether a design meets every limit of the programme (split and inner points)."""
-    if not np.allclose(lengths.sum(axis=1), p.piece_length, atol=1e-6):
+    pieces_of = _reach_pieces(p)
+    used = np.concatenate(pieces_of)
+    if not np.allclose(lengths[used].sum(axis=1), p.piece_length[used], atol=1e-6):
         return False
     if np.any((lengths > tol) & ~p.allowed):
         return False
-    for ri, (ks, h) in enumerate(zip(_reach_pieces(p), energies(p, lengths))):
+    for ri, (ks, h) in enumerate(zip(pieces_of, energies(p, lengths))):
         pts = p.splits[ks[0]:ks[-1] + 2]
         need = p.min_energy[pts].copy()
-        if ri < len(p.reaches) - 1:
+        if _ends_at_tank(p, ri):
             need[-1] = max(need[-1], p.arrival_min_energy[ri])
         if np.any(h[1:] < need[1:] - tol):
             return False
@@ -358,11 +401,13 @@ def best_single_size(p: SizingProblem) -> tuple[float, int | None]:
     for g in np.unique(p.group):
         cols = np.flatnonzero(p.group == g)
         ok = p.allowed[:, cols]
-        if not np.all(ok.any(axis=1)):
+        used = np.concatenate(_reach_pieces(p))
+        if not np.all(ok[used].any(axis=1)):
             continue
         lengths = np.zeros(p.allowed.shape)
         pick = cols[np.argmin(np.where(ok, p.cost[cols][None, :], np.inf), axis=1)]
-        lengths[np.arange(lengths.shape[0]), pick] = p.piece_length
+        for ks in _reach_pieces(p):
+            lengths[ks, pick[ks]] = p.piece_length[ks]
         if is_feasible(p, lengths):
             cost = float(np.sum(lengths * p.cost[None, :]))
             if cost < best[0]:

@@ -106,3 +106,79 @@ def test_infeasible_is_reported():
     impossible = SizingProblem(**{**p.__dict__, "min_energy": p.min_energy + 50})
     with pytest.raises(DesignError, match="no solution"):
         solve_sizing(impossible)
+
+
+def small_tree(seed, nopt=3):
+    """A Y: a main of two pieces to a junction, then two branches of two pieces each.
+
+    Points of each link are numbered one after another (main 0-2, branch A 3-5,
+    branch B 6-8); the pieces 2-3 and 5-6 join different links and belong to no reach.
+    """
+    rng = np.random.default_rng(seed)
+    L = rng.uniform(100, 300, 9)
+    position = np.zeros(9)
+    for block in ((0, 1, 2), (3, 4, 5), (6, 7, 8)):
+        position[list(block)] = np.concatenate([[0.0], np.cumsum(L[list(block[1:])])])
+    ground = np.empty(9)
+    ground[:3] = 100 - np.array([0, 6, 14])
+    ground[3:6] = ground[2] - np.array([0, rng.uniform(0, 10), rng.uniform(5, 20)])
+    ground[6:9] = ground[2] - np.array([0, rng.uniform(-3, 6), rng.uniform(0, 12)])
+    loss = np.sort(rng.uniform(0.003, 0.06, nopt))[::-1]
+    flow_scale = np.array([2.0, 2.0, 1.0, 1.0, 1.0, 1.0, 0.6, 0.6])   # main carries both branches
+    unit_loss = np.outer(flow_scale ** 1.85, loss)
+    allowed = np.ones((8, nopt), dtype=bool)
+    allowed[[2, 5]] = False
+    # enough head for the largest pipe on every path (the smallest will not do)
+    length = np.diff(position)
+    big = unit_loss[:, -1] * length
+    main = np.array([0, big[0], big[0] + big[1]])
+    need = max(np.max(ground[:3] + 2 + main),
+               *(np.max(ground[a:a + 3] + 2 + main[2] + np.array([0, big[a], big[a] + big[a + 1]]))
+                 for a in (3, 6)))
+    start = float(need) + 0.3
+    return SizingProblem(
+        splits=np.arange(9), position=position, unit_loss=unit_loss, allowed=allowed,
+        cost=np.sort(rng.uniform(1, 10, nopt)) * 1.0, group=np.arange(nopt),
+        reaches=[(0, 2), (3, 5), (6, 8)], start_energy=np.array([start, np.nan, np.nan]),
+        min_energy=ground + 2.0, arrival_min_energy=np.full(3, -np.inf),
+        fitting_loss=np.zeros(9), parent_point=np.array([-1, 2, 2]))
+
+
+def enumerate_tree(p):
+    real = [0, 1, 3, 4, 6, 7]
+    best = np.inf
+    length = p.piece_length
+    for combo in itertools.product(range(p.cost.size), repeat=len(real)):
+        pick = dict(zip(real, combo))
+        h = np.full(9, np.nan)
+        h[0] = p.start_energy[0]
+        h[1] = h[0] - p.unit_loss[0, pick[0]] * length[0]
+        h[2] = h[1] - p.unit_loss[1, pick[1]] * length[1]
+        for a in (3, 6):                                   # each branch starts at the junction
+            h[a] = h[2]
+            h[a + 1] = h[a] - p.unit_loss[a, pick[a]] * length[a]
+            h[a + 2] = h[a + 1] - p.unit_loss[a + 1, pick[a + 1]] * length[a + 1]
+        if np.all(h[[1, 2, 4, 5, 7, 8]] >= p.min_energy[[1, 2, 4, 5, 7, 8]] - 1e-9):
+            best = min(best, sum(p.cost[j] * length[k] for k, j in pick.items()))
+    return best
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_tree_sizing_equals_enumeration(seed):
+    p = small_tree(seed)
+    exhaustive = enumerate_tree(p)
+    if not np.isfinite(exhaustive):
+        with pytest.raises(DesignError):
+            solve_sizing(p, whole="piece")
+        return
+    milp = solve_sizing(p, whole="piece", mip_rel_gap=0.0)
+    assert milp.cost == pytest.approx(exhaustive, rel=1e-7)
+    lp = solve_sizing(p)
+    assert lp.cost <= milp.cost + 1e-7
+    assert lp.cost <= best_single_size(p)[0] + 1e-7
+    # the junction head is shared: both branches start where the main ends
+    x = lp.lengths
+    h_junction = p.start_energy[0] - sum((x[k] * p.unit_loss[k]).sum() for k in (0, 1))
+    for a in (3, 6):
+        h_end = h_junction - sum((x[k] * p.unit_loss[k]).sum() for k in (a, a + 1))
+        assert h_end >= p.min_energy[a + 2] - 1e-7
