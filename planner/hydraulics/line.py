@@ -76,12 +76,17 @@ class FreeSurface:
     static_level : float
         Highest water level that can stand there (overflow) [m]; drives static head.
     operating_level : float
-        Lowest operating water level [m]; drives the HGL at design flow.
+        Lowest operating water level [m]; drives the HGL at design flow.  For the start
+        of a branch at a junction, the energy head there.
+    entrance_k : float or None
+        Loss coefficient where the pipe leaves this surface [-]; None takes the line's
+        ``entrance_k`` (0 for a junction, which is no entrance).
     """
 
     index: int
     static_level: float
     operating_level: float
+    entrance_k: float | None = None
 
 
 @dataclass(frozen=True)
@@ -234,7 +239,8 @@ def line_energy(slope_length: NDArray, elevation: NDArray, flow: NDArray, pipe: 
     start = idx[reach]
     op = np.array([f.operating_level for f in surfaces])
     st = np.array([f.static_level for f in surfaces])
-    start_loss = (entrance_k + k[idx]) * hv_pt[idx]
+    k_in = np.array([entrance_k if f.entrance_k is None else f.entrance_k for f in surfaces])
+    start_loss = (k_in + k[idx]) * hv_pt[idx]
     energy = op[reach] - start_loss[reach] - (cum_drop - cum_drop[start])
     hgl = energy - hv_pt
     static_head = st[reach]
