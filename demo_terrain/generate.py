@@ -29,6 +29,11 @@ NODATA = -9999.0
 ROUTE_UV = [(780, 2600), (1350, 2560), (1900, 2380), (2300, 2300), (2800, 2250),
             (3350, 2150), (3650, 2120), (4050, 2180), (4600, 2260), (5150, 2200),
             (5800, 2050), (6500, 1900)]
+#: Branches off the main for the branched demo (network.geojson): name -> vertices.
+BRANCHES = {
+    "Tamsel school branch": [(4600, 2260), (4640, 2500), (4700, 2760)],
+    "Orun irrigation branch": [(5800, 2050), (5950, 1800), (6150, 1550)],
+}
 #: The void: centre [m from the corner] and radius [m].
 VOID = ((5470, 2130), 30.0)
 
@@ -87,7 +92,19 @@ def write_demo(folder: str | Path) -> dict[str, Path]:
     }]}
     path = folder / "route.geojson"
     path.write_text(json.dumps(route, indent=1) + "\n", encoding="utf-8")
-    return {"dem": dem, "route": path}
+
+    def feature(name, uv):
+        lo, la = to_lonlat.transform([ORIGIN_E + a for a, _ in uv], [ORIGIN_N + b for _, b in uv])
+        return {"type": "Feature", "properties": {"name": name},
+                "geometry": {"type": "LineString",
+                             "coordinates": [[round(x, 7), round(y, 7)] for x, y in zip(lo, la)]}}
+
+    network = {"type": "FeatureCollection",
+               "features": [feature("main", ROUTE_UV)]
+               + [feature(name, uv) for name, uv in BRANCHES.items()]}
+    npath = folder / "network.geojson"
+    npath.write_text(json.dumps(network, indent=1) + "\n", encoding="utf-8")
+    return {"dem": dem, "route": path, "network": npath}
 
 
 if __name__ == "__main__":

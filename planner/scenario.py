@@ -40,6 +40,8 @@ class RouteSpec:
     file: Path
     spacing_m: float | None = None
     crs: str | None = None
+    network: bool = False
+    join_tolerance_m: float = 5.0
 
 
 @dataclass(frozen=True)
@@ -52,6 +54,7 @@ class Source:
     top_above_ground_m: float | None
     low_above_ground_m: float | None
     yield_m3s: float | None
+    location: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -78,6 +81,7 @@ class Outlet:
     kind: str = "outlet"
     basis: str = "flow given"
     daily_volume_m3: float | None = None
+    link: str | None = None
 
 
 @dataclass(frozen=True)
@@ -165,10 +169,12 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
                 "notes": (str, False)},
     "terrain": {"dem": ((str, list), True), "vertical_datum": (str, False),
                 "max_void_m": (_NUM, False)},
-    "route": {"file": (str, True), "spacing_m": (_NUM, False), "crs": (str, False)},
+    "route": {"file": (str, True), "spacing_m": (_NUM, False), "crs": (str, False),
+              "network": (bool, False), "join_tolerance_m": (_NUM, False)},
     "source": {"name": (str, False), "top_water_level_m": (_NUM, False),
                "low_water_level_m": (_NUM, False), "top_water_above_ground_m": (_NUM, False),
-               "low_water_above_ground_m": (_NUM, False), "yield_lps": (_NUM, False)},
+               "low_water_above_ground_m": (_NUM, False), "yield_lps": (_NUM, False),
+               "location": (list, False)},
     "pipe": {"material": (str, True), "label": (str, False), "inside_diameter_mm": (_NUM, True),
              "roughness_mm": (_NUM, False), "hazen_williams_c": (_NUM, False),
              "rating_bar": (_NUM, True), "outside_diameter_mm": (_NUM, False),
@@ -192,6 +198,7 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
 }
 TABLE_ARRAYS = {
     "outlets": {"name": (str, True), "flow_lps": (_NUM, False), "demand": (dict, False),
+                "link": (str, False),
                 "min_pressure_m": (_NUM, False),
                 "chainage_m": (_NUM, False), "location": (list, False), "kind": (str, False)},
     "break_pressure_tanks": {"name": (str, False), "chainage_m": (_NUM, True),
@@ -318,8 +325,17 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                           max_void_m=float(t.get("max_void_m", 150.0)))
         _positive(problems, "terrain.max_void_m", t.get("max_void_m"), allow_zero=True)
     r = sec["route"]
-    route = RouteSpec(file=base / r.get("file", ""), spacing_m=r.get("spacing_m"), crs=r.get("crs"))
+    route = RouteSpec(file=base / r.get("file", ""), spacing_m=r.get("spacing_m"), crs=r.get("crs"),
+                      network=bool(r.get("network", False)),
+                      join_tolerance_m=float(r.get("join_tolerance_m", 5.0)))
+    _positive(problems, "route.join_tolerance_m", r.get("join_tolerance_m"))
     _positive(problems, "route.spacing_m", r.get("spacing_m"))
+    if route.network and (data.get("break_pressure_tanks") or data.get("fittings")):
+        problems.add("route.network", "engineer-placed tanks and fittings are not supported on a "
+                     "network yet; let [design] place the tanks")
+    if route.network and "pipe" in data:
+        problems.add("route.network", "a network is designed from catalogues: use [design], "
+                     "not [pipe]")
     if "file" in r and not route.file.suffix.lower() == ".csv" and terrain is None:
         problems.add("terrain.dem", f"needed for the route {r['file']!r}: only a CSV survey "
                      "carries its own elevations")
@@ -342,7 +358,11 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
         name=s.get("name", "source"), top_level_m=s.get("top_water_level_m"),
         low_level_m=s.get("low_water_level_m"), top_above_ground_m=s.get("top_water_above_ground_m"),
         low_above_ground_m=s.get("low_water_above_ground_m"),
-        yield_m3s=s["yield_lps"] * LPS if "yield_lps" in s else None)
+        yield_m3s=s["yield_lps"] * LPS if "yield_lps" in s else None,
+        location=tuple(s["location"]) if "location" in s and len(s["location"]) == 2 else None)
+    if "location" in s and (len(s["location"]) != 2 or not all(
+            isinstance(v, _NUM) and not isinstance(v, bool) for v in s["location"])):
+        problems.add("source.location", f"expected [longitude, latitude], got {s['location']!r}")
 
     # -- criteria
     c = sec["criteria"]
@@ -425,7 +445,8 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
             name=o.get("name", f"outlet {i}"), flow_m3s=flow,
             min_pressure_m=float(o.get("min_pressure_m", DEFAULT_OUTLET_MIN_PRESSURE_M)),
             chainage_m=o.get("chainage_m"), location=tuple(loc) if loc else None,
-            kind=o.get("kind", "outlet"), basis=basis, daily_volume_m3=volume))
+            kind=o.get("kind", "outlet"), basis=basis, daily_volume_m3=volume,
+            link=o.get("link")))
     if "outlets" in data and not outlets:
         problems.add("outlets", "at least one outlet is needed")
     if "outlets" not in data:

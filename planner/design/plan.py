@@ -367,7 +367,7 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                 sizing = (solve_sizing(problem, whole="reach") if stage == "reach" else
                           solve_whole_pieces(problem) if stage == "pieces" else
                           solve_sizing(problem))
-                refined, seg_opt = _build_line(prof, problem, sizing.lengths, options)
+                refined, seg_opt = _build_line(prof, problem.splits, sizing.lengths, options)
                 energy, remap, surfaces_r, req_r = _exact_energy(
                     prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr)
                 # the programme checks pressure with the velocity heads it was told; recheck
@@ -628,7 +628,7 @@ def _problem(prof, options, allowed_k, loss_k, hv_seg, surfaces, reaches, requir
         arrival_min_energy=arrival, fitting_loss=point_k * hv_pt)
 
 
-def _build_line(prof: Profile, problem: SizingProblem, lengths: NDArray, options: list[PipeOption]):
+def _build_line(prof: Profile, splits: NDArray, lengths: NDArray, options: list[PipeOption]):
     """Insert size changes into the profile; return it with the option of each segment.
 
     Within a sub-stretch made of several pipes, the larger bore goes upstream, so that
@@ -638,20 +638,20 @@ def _build_line(prof: Profile, problem: SizingProblem, lengths: NDArray, options
     ids = np.array([o.inside_diameter for o in options])
     cuts_pos, seq = [], []
     for k in range(lengths.shape[0]):
-        u = problem.splits[k]
+        u = splits[k]
         total = lengths[k].sum()
         used = np.flatnonzero(lengths[k] > 1e-6 * max(total, 1e-9))
         if used.size == 0:
             used = np.array([int(np.argmax(lengths[k]))])
         used = used[np.argsort(-ids[used])]
         share = lengths[k, used] / lengths[k, used].sum()
-        bounds = pos[u] + np.cumsum(share) * (pos[problem.splits[k + 1]] - pos[u])
+        bounds = pos[u] + np.cumsum(share) * (pos[splits[k + 1]] - pos[u])
         cuts_pos.extend(bounds[:-1])
         seq.append((bounds, used))
     refined, _ = split_profile(prof, np.interp(cuts_pos, pos, ch))
     rpos = refined.slope_length_m
     mid = (rpos[:-1] + rpos[1:]) / 2
-    k_of = np.clip(np.searchsorted(pos[problem.splits], mid, side="right") - 1, 0, len(seq) - 1)
+    k_of = np.clip(np.searchsorted(pos[splits], mid, side="right") - 1, 0, len(seq) - 1)
     seg_opt = np.empty(refined.n - 1, dtype=np.int64)
     for i, (k, m) in enumerate(zip(k_of, mid)):
         bounds, used = seq[k]

@@ -39,6 +39,7 @@ class NetworkLink:
     downstream: int
     name: str = ""
     turned: bool = False             # drawn against the flow and turned round
+    offset_m: float = 0.0            # where it starts along the line it was drawn as [m]
 
 
 @dataclass(frozen=True)
@@ -140,26 +141,26 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
         xy = np.asarray(g.coords)[:, :2]
         return LineString(np.column_stack(fwd.transform(xy[:, 0], xy[:, 1])))
 
-    metric = [(to_m(g), name) for g, name in pairs]
+    metric = [(to_m(g), name, 0.0) for g, name in pairs]
     notes = []
     # tees part-way along a line: split the line where another line's end touches it
     changed = True
     while changed:
         changed = False
-        ends = [Point(g.coords[i]) for g, _ in metric for i in (0, -1)]
-        for k, (g, name) in enumerate(metric):
+        ends = [Point(g.coords[i]) for g, _, _ in metric for i in (0, -1)]
+        for k, (g, name, off) in enumerate(metric):
             for e in ends:
                 d_along = g.project(e)
                 if g.distance(e) <= snap_tolerance_m and snap_tolerance_m < d_along < g.length - snap_tolerance_m:
                     a, b = substring(g, 0, d_along), substring(g, d_along, g.length)
-                    metric[k:k + 1] = [(a, name), (b, name)]
+                    metric[k:k + 1] = [(a, name, off), (b, name, off + d_along)]
                     notes.append(f"line {name or k + 1!s} split where a branch joins it")
                     changed = True
                     break
             if changed:
                 break
     # snap ends into nodes
-    ends = np.array([g.coords[i][:2] for g, _ in metric for i in (0, -1)])
+    ends = np.array([g.coords[i][:2] for g, _, _ in metric for i in (0, -1)])
     tree = cKDTree(ends)
     pairs_close = np.array(sorted(tree.query_pairs(snap_tolerance_m)), dtype=np.int64).reshape(-1, 2)
     m = ends.shape[0]
@@ -220,7 +221,7 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
                 continue
             visited.add(v)
             queue.append(v)
-            g, name = metric[k]
+            g, name, off = metric[k]
             turned = a != u
             if turned:
                 g = shapely.reverse(g)
@@ -228,7 +229,8 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
             xy = np.asarray(g.coords)
             lon, lat = back.transform(xy[:, 0], xy[:, 1])
             links.append(NetworkLink(id=len(links), line=LineString(np.column_stack([lon, lat])),
-                                     upstream=u, downstream=v, name=name, turned=turned))
+                                     upstream=u, downstream=v, name=name, turned=turned,
+                                     offset_m=off))
     lon, lat = back.transform(node_xy[:, 0], node_xy[:, 1])
     return RouteNetwork(nodes=np.column_stack([lon, lat]), links=tuple(links), root=root,
                         notes=tuple(notes))

@@ -1,0 +1,459 @@
+"""Orchestration for a branched system: the tree of links designed as one.
+
+Scenario (with ``route.network = true``) -> tree of links (geo.network) -> a profile per
+link -> outlets placed on links -> flows by accumulation towards the source -> tanks on
+every branch -> one sizing programme for the whole tree (a head per split point, the
+branches starting from their junction's head) -> the energy lines recomputed exactly on
+the tree -> valves, checks -> NetworkPlan.
+
+It reuses the single line's pieces (``plan``): candidate filtering, split points,
+rebuilding a link with its size changes, stretches and the checks.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+from shapely.geometry import LineString, Point
+from pyproj import Transformer
+
+from ..catalogue.pipes import load_options
+from ..catalogue.standards import temperature_factor
+from ..errors import DesignError, InputError
+from ..geo.network import RouteNetwork, build_tree, read_lines
+from ..geo.profile import Profile, sample_profile
+from ..geo.route import WGS84
+from ..geo.terrain import open_dem
+from ..hydraulics import surge as sg
+from ..hydraulics import water
+from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, segment_flows
+from ..hydraulics.network import LinkData, accumulate_flows, tree_energy
+from ..scenario import Scenario
+from ..units import G
+from .checks import Finding, check_line, check_outlet, check_surge, check_tank, check_yield
+from .features import Feature, place_features
+from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line,
+                   _candidate_data, _cheapest_per_size, _split_points, _stretches, _wave_speeds)
+from .sizing import SizingProblem, SizingResult, best_single_size, solve_sizing, solve_whole_pieces
+from .tanks import place_tanks
+
+
+@dataclass(frozen=True)
+class LinkPlan:
+    """One link of a designed tree."""
+
+    id: int
+    name: str
+    parent: int                      # upstream link, -1 from the source
+    profile: Profile
+    energy: LineEnergy
+    stretches: tuple[Stretch, ...]
+    features: tuple[Feature, ...]
+    tanks: tuple[TankResult, ...]
+    outlets: tuple[OutletResult, ...]
+    rating_head_m: NDArray[np.float64]
+    required_pressure_m: NDArray[np.float64]
+
+
+@dataclass(frozen=True)
+class NetworkPlan:
+    """Everything computed for a branched system."""
+
+    scenario: Scenario
+    network: RouteNetwork
+    links: tuple[LinkPlan, ...]
+    source_top_level_m: float
+    source_low_level_m: float
+    total_flow_m3s: float
+    density: float
+    kinematic_viscosity: float
+    findings: tuple[Finding, ...]
+    sizing: SizingResult | None = None
+    single_size_cost: float | None = None
+    mode: str = "design"
+    link_flow_m3s: tuple[float, ...] = field(default=())
+
+    @property
+    def errors(self) -> list[Finding]:
+        return [f for f in self.findings if f.severity == "error"]
+
+    @property
+    def pipe_cost(self) -> float:
+        return float(sum(s.cost for lk in self.links for s in lk.stretches))
+
+    @property
+    def outlets(self) -> list[OutletResult]:
+        return [o for lk in self.links for o in lk.outlets]
+
+    def path(self, link: int) -> list[int]:
+        """Links from the source down to ``link``, in flow order."""
+        out = []
+        while link >= 0:
+            out.append(link)
+            link = self.links[link].parent
+        return out[::-1]
+
+
+def _link_name(net_link, k):
+    return net_link.name or f"link {k + 1}"
+
+
+def _place_outlets(sc, net, profiles, names, tol):
+    """(outlet, link, point index) for every outlet: by link name and chainage, or location."""
+    placed = []
+    for i, o in enumerate(sc.outlets, start=1):
+        key = f"outlets[{i}]"
+        if o.link is not None:
+            # a drawn line may have been split at tees: find the piece holding the chainage
+            hits = [k for k, lk in enumerate(net.links) if lk.name == o.link]
+            if not hits:
+                known = ", ".join(sorted({lk.name for lk in net.links if lk.name}))
+                raise InputError(f"{key}.link = {o.link!r}: no line of that name; lines: {known}")
+            if o.chainage_m is None:
+                raise InputError(f"{key}: give chainage_m along the line {o.link!r}")
+            hits.sort(key=lambda k: net.links[k].offset_m)
+            k = next((k for k in hits if o.chainage_m <= net.links[k].offset_m
+                      + profiles[k].length_m + 1e-6), hits[-1])
+            local = o.chainage_m - net.links[k].offset_m
+            if local > profiles[k].length_m + tol:
+                raise InputError(f"{key}.chainage_m = {o.chainage_m:,.0f} m is beyond the end of "
+                                 f"the line {o.link!r}")
+            placed.append((o, k, profiles[k].index_at(min(local, profiles[k].length_m))))
+            continue
+        if o.location is None:
+            raise InputError(f"{key}: on a network, give location = [lon, lat], or link and chainage_m")
+        best = None
+        for k, prof in enumerate(profiles):
+            tr = Transformer.from_crs(WGS84, prof.crs, always_xy=True)
+            pt = Point(*tr.transform(*o.location))
+            line = LineString(np.column_stack([prof.x, prof.y]))
+            d = line.distance(pt)
+            if best is None or d < best[0]:
+                along = line.project(pt)
+                planar = np.concatenate([[0.0], np.cumsum(np.hypot(np.diff(prof.x), np.diff(prof.y)))])
+                best = (d, k, prof.index_at(float(np.interp(along, planar, prof.chainage_m))))
+        if best[0] > tol:
+            raise InputError(f"{key}.location {list(o.location)} is {best[0]:,.0f} m from the "
+                             f"nearest link (more than criteria.snap_tolerance_m = {tol:g} m)")
+        placed.append((o, best[1], best[2]))
+    return placed
+
+
+def plan_network(scenario: Scenario) -> NetworkPlan:
+    """Design a branched system (see the module docstring)."""
+    sc, cr = scenario, scenario.criteria
+    if sc.design is None:
+        raise InputError("a network needs [design]")
+    net = build_tree(read_lines(sc.route.file), source=sc.source.location,
+                     snap_tolerance_m=sc.route.join_tolerance_m)
+    links = net.links
+    L = len(links)
+    names = [_link_name(lk, k) for k, lk in enumerate(links)]
+    into = {lk.downstream: k for k, lk in enumerate(links)}
+    parents = [into.get(lk.upstream, -1) for lk in links]
+    with open_dem(list(sc.terrain.dem)) as dem:
+        profiles = [sample_profile(lk.line, dem, spacing_m=sc.route.spacing_m,
+                                   cover_m=cr.cover_m, max_void_m=sc.terrain.max_void_m,
+                                   vertical_datum=sc.terrain.vertical_datum) for lk in links]
+    root_link = next(k for k in range(L) if parents[k] < 0)
+    g0 = float(profiles[root_link].ground_m[0])
+    top = sc.source.top_level_m if sc.source.top_level_m is not None else g0 + sc.source.top_above_ground_m
+    low = sc.source.low_level_m if sc.source.low_level_m is not None else g0 + sc.source.low_above_ground_m
+
+    placed = _place_outlets(sc, net, profiles, names, cr.snap_tolerance_m)
+    own = [sum(o.flow_m3s for o, k, _ in placed if k == kk) for kk in range(L)]
+    total_in = accumulate_flows(parents, own)
+    children = [[c for c in range(L) if parents[c] == k] for k in range(L)]
+    flows = []
+    for k, prof in enumerate(profiles):
+        draws = [(float(prof.chainage_m[j]), o.flow_m3s) for o, kk, j in placed if kk == k]
+        down = sum(total_in[c] for c in children[k])
+        if down > 0:
+            draws.append((prof.length_m, down))
+        flows.append(segment_flows(prof.chainage_m, draws))
+
+    rho = water.density(cr.temperature_c)
+    nu = water.kinematic_viscosity(cr.temperature_c)
+    d = sc.design
+    options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
+                           max_od_mm=d.max_size_mm)
+    try:
+        factors = np.array([temperature_factor(o.material, cr.wall_temperature_c) for o in options])
+    except ValueError as exc:
+        raise InputError(f"criteria.pipe_temperature_c: {exc}") from None
+    rating_head = np.array([o.rating for o in options]) * factors / (rho * G)
+    wave = _wave_speeds(options, rho)
+    cand = [_candidate_data(options, q, rho, nu, cr.friction) for q in flows]
+
+    # -- tanks on every branch (the static level runs on through junctions), then candidates
+    limit = float(rating_head.max())
+    reason = f"the highest class available, {options[int(rating_head.argmax())].label}"
+    if d.max_static_pressure_m is not None and d.max_static_pressure_m < limit:
+        limit, reason = d.max_static_pressure_m, "design.max_static_pressure_m"
+    margin = 0.0
+    for _ in range(12):
+        sites, start_level, allowed, surfaces, since, gaps = [], [], [], [], [], []
+        for k, prof in enumerate(profiles):
+            lvl = top if parents[k] < 0 else surfaces[parents[k]][-1].static_level
+            s_k = place_tanks(prof.chainage_m, prof.ground_m, prof.pipe_m, source_level=lvl,
+                              limit_head=limit - margin, water_depth=d.tank_water_depth_m,
+                              limit_reason=reason + (f", less {margin:.0f} m for surge" if margin else ""))
+            sites.append(s_k)
+            start_level.append(lvl)
+            surf = [FreeSurface(0, lvl, np.nan)] + [FreeSurface(s.index, s.level, s.level) for s in s_k]
+            surfaces.append(surf)
+            # pipe length from the free surface feeding each segment (for surge)
+            upstream = 0.0 if parents[k] < 0 else since[parents[k]]
+            idx = [f.index for f in surf]
+            seg_r = np.searchsorted(idx, np.arange(prof.n - 1), side="right") - 1
+            sl = prof.slope_length_m
+            from_surface = np.array([sl[prof.n - 1] - sl[idx[r]] + (upstream if r == 0 else 0.0)
+                                     for r in seg_r])
+            since.append(float(sl[-1] - sl[idx[-1]] + (upstream if len(idx) == 1 else 0.0)))
+            level = np.array([surf[r].static_level for r in seg_r])
+            static = level - np.minimum(prof.pipe_m[:-1], prof.pipe_m[1:])
+            v, hv, loss = cand[k]
+            surge = np.where(np.isfinite(wave)[None, :],
+                             sg.surge_head(from_surface[:, None], v, wave[None, :],
+                                           cr.valve_closure_s), 0.0)
+            ok_static = static[:, None] <= rating_head[None, :]
+            fits = cr.surge_rating_factor * rating_head[None, :] - static[:, None] - surge
+            slow = v <= cr.velocity_max_mps
+            allowed.append(ok_static & (fits >= 0) & slow)
+            # segments that only surge leaves without a class: how far short they are
+            short = ~allowed[-1].any(axis=1) & (ok_static & slow).any(axis=1)
+            gaps.append(-np.max(np.where(ok_static & slow, fits, -np.inf), axis=1)[short])
+        shortfall = max((float(g.max()) for g in gaps if g.size), default=0.0)
+        if shortfall <= 0:
+            break
+        margin += shortfall + 1.0
+    for k, a in enumerate(allowed):
+        none = ~a.any(axis=1)
+        if none.any():
+            i = int(np.flatnonzero(none)[0])
+            raise DesignError(f"no design is possible: on {names[k]} at chainage "
+                              f"{profiles[k].chainage_m[i]:,.0f} m no pipe in the catalogues keeps "
+                              f"the velocity below {cr.velocity_max_mps:g} m/s and the static head "
+                              "plus surge within its class: add larger sizes or higher classes")
+
+    # -- one programme for the whole tree
+    reaches_local = [[(a, b) for a, b in zip([f.index for f in surf], [f.index for f in surf][1:] + [prof.n - 1])]
+                     for surf, prof in zip(surfaces, profiles)]
+    required = []
+    for k, prof in enumerate(profiles):
+        idx = [f.index for f in surfaces[k]]
+        pr = np.searchsorted(idx, np.arange(prof.n), side="right") - 1
+        static_p = np.array([surfaces[k][r].static_level for r in pr]) - prof.pipe_m
+        req = np.minimum(cr.min_line_pressure_m, np.maximum(static_p, 0.0) / 2.0)
+        for o, kk, j in placed:
+            if kk == k:
+                req[j] = max(req[j], o.min_pressure_m)
+        required.append(req)
+    offsets = np.concatenate([[0], np.cumsum([p.n for p in profiles])])
+    splits_local = [_split_points(prof, reaches_local[k], [(o, j) for o, kk, j in placed if kk == k],
+                                  np.zeros(prof.n), d.split_spacing_m)
+                    for k, prof in enumerate(profiles)]
+    allowed_k = [_cheapest_per_size(np.logical_and.reduceat(a, sp[:-1], axis=0), options)
+                 for a, sp in zip(allowed, splits_local)]
+    extra = [np.zeros(p.n) for p in profiles]
+    hv_k = [np.min(np.where(ak, cand[k][1][sp[:-1]], np.inf), axis=1)
+            for k, (ak, sp) in enumerate(zip(allowed_k, splits_local))]
+    final = "reach" if d.one_size_per_reach else "pieces" if d.whole_pieces else "lp"
+    converged = False
+    for stage in dict.fromkeys(("lp", final)):
+        for _ in range(12):
+            problem, piece_rows = _tree_problem(profiles, parents, surfaces, reaches_local,
+                                                splits_local, allowed_k, cand, hv_k, required,
+                                                extra, offsets, options, top, low, cr)
+            sizing = (solve_sizing(problem, whole="reach") if stage == "reach" else
+                      solve_whole_pieces(problem) if stage == "pieces" else solve_sizing(problem))
+            built = [_build_line(prof, sp, sizing.lengths[rows], options)
+                     for prof, sp, rows in zip(profiles, splits_local, piece_rows)]
+            energies, remaps, req_r = _tree_exact(profiles, built, parents, surfaces, placed,
+                                                  children, total_in, options, required, top,
+                                                  low, nu, cr)
+            converged = True
+            for k in range(L):
+                short = req_r[k] - energies[k].pressure_head
+                used = np.max(np.where(sizing.lengths[piece_rows[k]] > 1e-9,
+                                       cand[k][1][splits_local[k][:-1]], 0.0), axis=1)
+                if np.any(short > 5e-4) or np.any(used > hv_k[k] + 1e-9):
+                    converged = False
+                hv_k[k] = np.maximum(hv_k[k], used)
+                rch = built[k][0].chainage_m
+                for i in np.flatnonzero(short > 5e-4):
+                    j = min(int(np.searchsorted(profiles[k].chainage_m, rch[i] - 1e-9)),
+                            profiles[k].n - 1)
+                    extra[k][j] += short[i] + 1e-3
+            if converged:
+                break
+    single = best_single_size(problem)[0]
+
+    # -- results per link
+    link_plans, findings = [], []
+    total = float(sum(o.flow_m3s for o in sc.outlets))
+    volumes = [o.daily_volume_m3 for o in sc.outlets]
+    findings += check_yield(total, sc.source.yield_m3s,
+                            sum(volumes) if all(v is not None for v in volumes) else None)
+    auto_no = 0
+    for k in range(L):
+        refined, seg_opt = built[k]
+        e, remap = energies[k], remaps[k]
+        seg_rating = rating_head[seg_opt]
+        pt_rating = np.minimum(np.append(seg_rating, seg_rating[-1]),
+                               np.insert(seg_rating, 0, seg_rating[0]))
+        surf_r = [int(remap[f.index]) for f in surfaces[k]]
+        reaches_r = list(zip(surf_r, surf_r[1:] + [refined.n - 1]))
+        stretches = _stretches(refined, e, seg_opt, options, seg_rating, reaches_r=reaches_r,
+                               wave=wave, cr=cr)
+        od = np.array([options[j].outside_diameter * 1e3 for j in np.append(seg_opt, seg_opt[-1])])
+        feats = tuple(place_features(refined.chainage_m, refined.pipe_m, e.hgl, od, reaches_r,
+                                     prominence_m=cr.feature_prominence_m,
+                                     grade_change=cr.grade_break, grade_window_m=cr.grade_window_m,
+                                     spacing_m=cr.air_valve_spacing_m, long_ascent_m=cr.long_ascent_m))
+        tanks = []
+        for s in sites[k]:
+            auto_no += 1
+            tanks.append(TankResult(name=f"BPT {auto_no} (placed)", chainage_m=float(profiles[k].chainage_m[s.index]),
+                                    index=int(remap[s.index]), water_level_m=s.level,
+                                    arrival_hgl_m=float(e.arrival_hgl[remap[s.index]]), rule=s.rule))
+        outs = tuple(OutletResult(
+            name=o.name, kind=o.kind, chainage_m=float(profiles[k].chainage_m[j]), index=int(remap[j]),
+            flow_m3s=o.flow_m3s, ground_m=float(profiles[k].ground_m[j]),
+            pressure_head_m=float(e.pressure_head[remap[j]]), min_pressure_m=o.min_pressure_m,
+            basis=o.basis) for o, kk, j in placed if kk == k)
+        static_check = e.static_pressure_head.copy()
+        rating_check = pt_rating.copy()
+        for prev, nxt in zip(surfaces[k][:-1], surfaces[k][1:]):
+            static_check[remap[nxt.index]] = prev.static_level - float(refined.pipe_m[remap[nxt.index]])
+            rating_check[remap[nxt.index]] = seg_rating[remap[nxt.index] - 1]
+        local = check_line(chainage=refined.chainage_m, pressure_head=e.pressure_head,
+                           static_pressure_head=static_check, velocity=e.velocity,
+                           flowing=e.flow > 0, rating_head=rating_check, criteria=cr,
+                           elevation=refined.pipe_m, temperature_c=cr.temperature_c,
+                           surface_index=tuple(surf_r))
+        for o in outs:
+            local += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m)
+        for t in tanks:
+            local += check_tank(t.name, t.chainage_m, t.arrival_hgl_m,
+                                t.water_level_m + cr.tank_inlet_head_m)
+        local += check_surge(stretches, cr)
+        for f in feats:
+            if f.kind == "air_valve" and e.pressure_head[f.index] < 0:
+                local.append(Finding("error", "air-valve-vacuum",
+                                     f"the air valve at chainage {f.chainage_m:,.0f} m sits where "
+                                     f"the pressure is {e.pressure_head[f.index]:.1f} m",
+                                     "lower the line there, or use a larger pipe upstream",
+                                     f.chainage_m, f.chainage_m))
+        findings += [Finding(f.severity, f.code, f"{names[k]}: {f.message}", f.remedy,
+                             f.chainage_m, f.chainage_end_m) for f in local]
+        findings += [Finding("note", "profile", f"{names[k]}: {n}") for n in profiles[k].notes]
+        link_plans.append(LinkPlan(id=k, name=names[k], parent=parents[k], profile=refined,
+                                   energy=e, stretches=stretches, features=feats,
+                                   tanks=tuple(tanks), outlets=outs, rating_head_m=pt_rating,
+                                   required_pressure_m=req_r[k]))
+    findings += [Finding("note", "network", n) for n in net.notes]
+    if not converged:
+        findings.append(Finding("warning", "sizing-recheck", "the sized tree still falls short of "
+                                "a limit after 12 rechecks (see the other findings)",
+                                "use a finer design.split_spacing_m"))
+    findings.append(Finding(
+        "note", "sizing", f"sizes and classes chosen by the {sizing.method} at least cost "
+        f"({sizing.cost:,.0f}, optimality gap {sizing.gap * 100:.2g} %); "
+        + (f"the cheapest single size would cost {single:,.0f}" if np.isfinite(single)
+           else "no single size meets every limit")))
+    findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity], f.message))
+    return NetworkPlan(scenario=sc, network=net, links=tuple(link_plans),
+                       source_top_level_m=float(top), source_low_level_m=float(low),
+                       total_flow_m3s=total, density=float(rho), kinematic_viscosity=float(nu),
+                       findings=tuple(findings), sizing=sizing,
+                       single_size_cost=single if np.isfinite(single) else None,
+                       link_flow_m3s=tuple(float(x) for x in total_in))
+
+
+def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allowed_k, cand,
+                  hv_k, required, extra, offsets, options, top, low, cr):
+    """The split-pipe programme of the whole tree: links numbered one after another."""
+    J = len(options)
+    split_g, allowed_rows, loss_rows, rows_of = [], [], [], []
+    reaches, start, arrival, parent_pt = [], [], [], []
+    min_e, pos, fit = [], [], []
+    row = 0
+    for k, prof in enumerate(profiles):
+        sp = splits_local[k]
+        if k > 0:                                   # the piece joining two links: in no reach
+            allowed_rows.append(np.zeros((1, J), dtype=bool))
+            loss_rows.append(np.zeros((1, J)))
+            row += 1
+        split_g.append(sp + offsets[k])
+        allowed_rows.append(allowed_k[k])
+        loss_rows.append(np.nan_to_num(cand[k][2][sp[:-1]], nan=0.0))
+        rows_of.append(np.arange(row, row + sp.size - 1))
+        row += sp.size - 1
+        piece_of_seg = np.searchsorted(sp, np.arange(prof.n - 1), side="right") - 1
+        hv_seg = hv_k[k][piece_of_seg]
+        hv_pt = np.append(hv_seg, hv_seg[-1])
+        min_e.append(prof.pipe_m + required[k] + extra[k] + hv_pt + 1e-3)
+        pos.append(prof.slope_length_m)
+        fit.append(np.zeros(prof.n))
+        surf = surfaces[k]
+        for r, (a, b) in enumerate(reaches_local[k]):
+            reaches.append((int(a + offsets[k]), int(b + offsets[k])))
+            if r == 0 and parents[k] >= 0:
+                parent_pt.append(int(offsets[parents[k]] + profiles[parents[k]].n - 1))
+                start.append(np.nan)
+            else:
+                level = low if (r == 0 and parents[k] < 0) else surf[r].operating_level
+                parent_pt.append(-1)
+                start.append(level - cr.entrance_k * hv_pt[a])
+            if r + 1 < len(surf):
+                arrival.append(surf[r + 1].static_level + cr.tank_inlet_head_m + hv_seg[b - 1] + 1e-3)
+            else:
+                arrival.append(-np.inf)
+    groups = {}
+    group = np.array([groups.setdefault((o.material, round(o.outside_diameter, 6)), len(groups))
+                      for o in options])
+    problem = SizingProblem(
+        splits=np.concatenate(split_g), position=np.concatenate(pos),
+        unit_loss=np.vstack(loss_rows), allowed=np.vstack(allowed_rows),
+        cost=np.array([o.cost_per_m for o in options]), group=group, reaches=reaches,
+        start_energy=np.array(start), min_energy=np.concatenate(min_e),
+        arrival_min_energy=np.array(arrival), fitting_loss=np.concatenate(fit),
+        parent_point=np.array(parent_pt, dtype=np.int64))
+    return problem, rows_of
+
+
+def _tree_exact(profiles, built, parents, surfaces, placed, children, total_in, options,
+                required, top, low, nu, cr):
+    """Energy lines of the built tree, exactly, and the pressure required at every point."""
+    datas, remaps, reqs = [], [], []
+    for k, (prof, (refined, seg_opt)) in enumerate(zip(profiles, built)):
+        ch, rch = prof.chainage_m, refined.chainage_m
+        remap = np.searchsorted(rch, ch)
+        draws = [(float(ch[j]), o.flow_m3s) for o, kk, j in placed if kk == k]
+        down = sum(total_in[c] for c in children[k])
+        if down > 0:
+            draws.append((refined.length_m, down))
+        flows = segment_flows(rch, draws)
+        tanks = [FreeSurface(int(remap[f.index]), f.static_level, f.operating_level)
+                 for f in surfaces[k][1:]]
+        pipe = PipeHydraulics(
+            inside_diameter=np.array([options[j].inside_diameter for j in seg_opt]),
+            method=cr.friction,
+            roughness=np.array([options[j].roughness for j in seg_opt]) if cr.friction == "colebrook" else None,
+            c_factor=np.array([options[j].c_factor for j in seg_opt]) if cr.friction == "hazen-williams" else None)
+        datas.append(LinkData(refined.slope_length_m, refined.pipe_m, flows, pipe,
+                              parent=parents[k], tanks=tanks))
+        seg = np.clip(np.searchsorted(ch, rch, side="right") - 1, 0, ch.size - 2)
+        req = np.maximum(required[k][seg], required[k][seg + 1])
+        req[remap] = required[k]
+        remaps.append(remap)
+        reqs.append(req)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        energies = tree_energy(datas, FreeSurface(0, top, low), kinematic_viscosity=nu,
+                               entrance_k=cr.entrance_k)
+    return energies, remaps, reqs
