@@ -14,10 +14,10 @@ $(STAMP): pyproject.toml
 	$(BIN)/pip install --quiet -e '.[test]'
 	touch $(STAMP)
 
-demo_terrain/dem.tif: demo_terrain/generate.py $(STAMP)
+demo_terrain/dem.tif demo_terrain/network.geojson: demo_terrain/generate.py $(STAMP)
 	$(BIN)/python demo_terrain/generate.py
 
-demo: $(STAMP) demo_terrain/dem.tif
+demo: $(STAMP) demo_terrain/dem.tif demo_terrain/network.geojson
 	$(BIN)/gravplan demo --out outputs/demo
 
 # the browser tests need Debian's Chromium; as root it is installed when missing

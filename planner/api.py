@@ -26,18 +26,22 @@ from .report.web_map import write_map
 from .scenario import Scenario, load_scenario
 
 __all__ = ["load_scenario", "read_route", "sample_profile", "profile_from_survey",
-           "build_profile", "plan", "write_outputs", "Plan", "Profile", "Scenario"]
+           "build_profile", "plan", "plan_any", "write_outputs", "write_any",
+           "write_network_outputs", "Plan", "Profile", "Scenario"]
 
 plan = plan_scenario
 
 
-def _terrain_window(plan_: Plan, margin_m: float = 1500.0):
-    """A decimated DEM window around the route, for the map's hillshade."""
-    sc, prof = plan_.scenario, plan_.profile
-    if sc.terrain is None or not np.all(np.isfinite(prof.lon)):
+def _terrain_window(plans, margin_m: float = 1500.0):
+    """A decimated DEM window around the route(s), for the map's hillshade."""
+    plans = plans if isinstance(plans, (list, tuple)) else [plans]
+    sc = plans[0].scenario
+    lon = np.concatenate([p.profile.lon for p in plans])
+    lat = np.concatenate([p.profile.lat for p in plans])
+    if sc.terrain is None or not np.all(np.isfinite(lon)):
         return None
     with open_dem(list(sc.terrain.dem)) as dem:
-        x, y = Transformer.from_crs(WGS84, dem.crs, always_xy=True).transform(prof.lon, prof.lat)
+        x, y = Transformer.from_crs(WGS84, dem.crs, always_xy=True).transform(lon, lat)
         unit = 1.0 if dem.is_geographic else (dem.crs.axis_info[0].unit_conversion_factor or 1.0)
         pad = margin_m / (111_320.0 if dem.is_geographic else unit)
         bounds = (np.min(x) - pad, np.min(y) - pad, np.max(x) + pad, np.max(y) + pad)
@@ -61,4 +65,48 @@ def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
     }
     if np.all(np.isfinite(plan_.profile.lat)):
         written["map.html"] = write_map(plan_, out / "map.html", terrain=terrain)
+    return written
+
+
+def plan_any(scenario: Scenario):
+    """Plan a scenario: a single line, or a branched system when ``route.network`` is set."""
+    if scenario.route.network:
+        from .design.network_plan import plan_network
+        return plan_network(scenario)
+    return plan_scenario(scenario)
+
+
+def write_any(plan_, out_dir: str | Path) -> dict[str, Path]:
+    """Write a line's or a network's outputs (see :func:`write_outputs`)."""
+    from .design.network_plan import NetworkPlan
+    if isinstance(plan_, NetworkPlan):
+        return write_network_outputs(plan_, out_dir)
+    return write_outputs(plan_, out_dir)
+
+
+def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
+    """Write plan.json, a profile drawing per path from the source to each branch end,
+    and map.html for a branched system, each file atomically."""
+    import re
+
+    from .design.network_plan import as_line_plan
+    from .report.plan_json import write_network_json
+
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    link_plans = [as_line_plan(plan_, [k]) for k in range(len(plan_.links))]
+    written = {}
+    ends = [k for k in range(len(plan_.links)) if not any(lk.parent == k for lk in plan_.links)]
+    drawings = []
+    for k in ends:
+        path_plan = as_line_plan(plan_, plan_.path(k))
+        last = path_plan.outlets[-1].name if path_plan.outlets else plan_.links[k].name
+        slug = re.sub(r"[^a-z0-9]+", "-", last.lower()).strip("-") or f"path-{k}"
+        name = f"profile_{slug}.png"
+        written[name] = write_profile_png(path_plan, out / name)
+        drawings.append({"file": name, "links": plan_.path(k), "to": last})
+    written["plan.json"] = write_network_json(plan_, link_plans, drawings, out / "plan.json")
+    written["map.html"] = write_map(link_plans, out / "map.html",
+                                    terrain=_terrain_window(link_plans),
+                                    title=plan_.scenario.project.name)
     return written

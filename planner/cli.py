@@ -147,16 +147,55 @@ def _report(plan, written):
                "engineer take precedence.")
 
 
+def _report_network(plan, written):
+    from .units import LPS
+
+    click.echo(f"{plan.scenario.project.name}")
+    click.echo(f"  {len(plan.links)} links, design flow {plan.total_flow_m3s / LPS:.2f} L/s, pipe "
+               f"cost {plan.pipe_cost:,.0f} ({plan.sizing.method}, "
+               f"{plan.sizing.gap * 100:.2g} % above the bound {plan.sizing.lower_bound:,.0f})")
+    for lk, flow in zip(plan.links, plan.link_flow_m3s):
+        parent = plan.links[lk.parent].name if lk.parent >= 0 else "the source"
+        sizes = ", ".join(dict.fromkeys(st.option.label for st in lk.stretches))
+        click.echo(f"  {lk.name} (from {parent}): {lk.profile.length_m:,.0f} m, "
+                   f"{flow / LPS:.2f} L/s; {sizes}")
+        for t in lk.tanks:
+            click.echo(f"    tank {t.name}: chainage {t.chainage_m:,.0f} m, water level "
+                       f"{t.water_level_m:.1f} m ({t.rule})")
+        for o in lk.outlets:
+            mark = "ok " if o.ok else "LOW"
+            click.echo(f"    [{mark}] {o.name}: chainage {o.chainage_m:,.0f} m, "
+                       f"{o.flow_m3s / LPS:.2f} L/s, residual {o.pressure_head_m:.1f} m "
+                       f"(min {o.min_pressure_m:g} m)")
+        n_air = sum(f.kind == "air_valve" for f in lk.features)
+        n_wash = sum(f.kind == "washout" for f in lk.features)
+        click.echo(f"    {n_air} air valve(s), {n_wash} washout(s)")
+    if plan.findings:
+        click.echo("  findings:")
+        for f in plan.findings:
+            click.echo(f"    {f.severity:<7} {f.message}")
+            if f.remedy:
+                click.echo(f"            -> {f.remedy}")
+    for name, path in written.items():
+        click.echo(f"  wrote {path}")
+    click.echo("  Planning aid only: confirm levels in the field; local codes and a licensed "
+               "engineer take precedence.")
+
+
 def _plan_and_write(scenario_path: Path, out: Path):
     from . import api
 
     def work():
         sc = api.load_scenario(scenario_path)
-        pl = api.plan(sc)
-        return pl, api.write_outputs(pl, out)
+        pl = api.plan_any(sc)
+        return pl, api.write_any(pl, out)
 
     pl, written = _run(work)
-    _report(pl, written)
+    from .design.network_plan import NetworkPlan
+    if isinstance(pl, NetworkPlan):
+        _report_network(pl, written)
+    else:
+        _report(pl, written)
     return pl
 
 
@@ -214,9 +253,10 @@ def catalogue(catalogues, materials, min_size, max_size, min_pn):
 @click.option("--out", type=click.Path(file_okay=False, path_type=Path), default=Path("outputs/demo"),
               show_default=True, help="Folder for the demo's results (replaced).")
 def demo(out):
-    """Plan the bundled invented demo line and write its results.
+    """Plan the bundled invented demo line and its branched system; write their results.
 
-    Generates the demo terrain first if it is not there yet.
+    The line goes to OUT, the branched system (village school and irrigation branches
+    added) to OUT/branched.  Generates the demo terrain first if it is not there yet.
 
     \b
     Example:
@@ -226,12 +266,14 @@ def demo(out):
         raise _Reported(f"the demo scenario is not installed ({DEMO_SCENARIO}); run gravplan "
                         "from a clone of the repository")
     dem = DEMO_SCENARIO.parent / "dem.tif"
-    if not dem.is_file():
+    if not dem.is_file() or not (DEMO_SCENARIO.parent / "network.geojson").is_file():
         import runpy
 
         click.echo(f"generating the demo terrain in {dem.parent}")
         runpy.run_path(str(DEMO_SCENARIO.parent / "generate.py"), run_name="__main__")
     _plan_and_write(DEMO_SCENARIO, out)
+    click.echo("")
+    _plan_and_write(DEMO_SCENARIO.parent / "scenario_network.toml", out / "branched")
 
 
 if __name__ == "__main__":

@@ -77,6 +77,6 @@ def demo_folder(tmp_path_factory):
         sys.path.pop(0)
     folder = tmp_path_factory.mktemp("demo")
     generate.write_demo(folder)
-    for name in ("scenario.toml", "scenario_given_pipe.toml"):
+    for name in ("scenario.toml", "scenario_given_pipe.toml", "scenario_network.toml"):
         shutil.copy(ROOT / "demo_terrain" / name, folder / name)
     return folder

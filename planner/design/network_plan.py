@@ -25,7 +25,7 @@ from ..catalogue.standards import temperature_factor
 from ..errors import DesignError, InputError
 from ..geo.network import RouteNetwork, build_tree, read_lines
 from ..geo.profile import Profile, sample_profile
-from ..geo.route import WGS84
+from ..geo.route import WGS84, Route
 from ..geo.terrain import open_dem
 from ..hydraulics import surge as sg
 from ..hydraulics import water
@@ -108,7 +108,7 @@ def _place_outlets(sc, net, profiles, names, tol):
         key = f"outlets[{i}]"
         if o.link is not None:
             # a drawn line may have been split at tees: find the piece holding the chainage
-            hits = [k for k, lk in enumerate(net.links) if lk.name == o.link]
+            hits = [k for k, lk in enumerate(net.links) if lk.name == o.link or names[k] == o.link]
             if not hits:
                 known = ", ".join(sorted({lk.name for lk in net.links if lk.name}))
                 raise InputError(f"{key}.link = {o.link!r}: no line of that name; lines: {known}")
@@ -152,12 +152,19 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
     links = net.links
     L = len(links)
     names = [_link_name(lk, k) for k, lk in enumerate(links)]
+    for nm in set(names):                       # a drawn line split at tees: number its parts
+        parts = sorted((lk.offset_m, k) for k, lk in enumerate(links) if names[k] == nm)
+        if len(parts) > 1:
+            for i, (_, k) in enumerate(parts, start=1):
+                names[k] = f"{nm}, part {i}"
     into = {lk.downstream: k for k, lk in enumerate(links)}
     parents = [into.get(lk.upstream, -1) for lk in links]
     with open_dem(list(sc.terrain.dem)) as dem:
-        profiles = [sample_profile(lk.line, dem, spacing_m=sc.route.spacing_m,
+        profiles = [sample_profile(Route(line=lk.line, source=f"{sc.route.file.name} ({names[k]})"),
+                                   dem, spacing_m=sc.route.spacing_m,
                                    cover_m=cr.cover_m, max_void_m=sc.terrain.max_void_m,
-                                   vertical_datum=sc.terrain.vertical_datum) for lk in links]
+                                   vertical_datum=sc.terrain.vertical_datum)
+                    for k, lk in enumerate(links)]
     root_link = next(k for k in range(L) if parents[k] < 0)
     g0 = float(profiles[root_link].ground_m[0])
     top = sc.source.top_level_m if sc.source.top_level_m is not None else g0 + sc.source.top_above_ground_m
@@ -457,3 +464,86 @@ def _tree_exact(profiles, built, parents, surfaces, placed, children, total_in, 
         energies = tree_energy(datas, FreeSurface(0, top, low), kinematic_viscosity=nu,
                                entrance_k=cr.entrance_k)
     return energies, remaps, reqs
+
+
+def _shift(items, di, dch):
+    from dataclasses import replace
+
+    out = []
+    for it in items:
+        fields = {}
+        for name in ("index", "start_index", "end_index"):
+            if hasattr(it, name):
+                fields[name] = getattr(it, name) + di
+        for name in ("chainage_m", "chainage_end_m"):
+            if hasattr(it, name) and getattr(it, name) is not None:
+                fields[name] = getattr(it, name) + dch
+        out.append(replace(it, **fields))
+    return out
+
+
+def as_line_plan(plan: NetworkPlan, link_ids: list[int]):
+    """A chain of links (e.g. the path from the source to an outlet) as one line's Plan.
+
+    Only re-indexing: arrays are joined at the junctions (the branch's first point, the
+    junction itself, is dropped), chainages run on, indices shift.  Report code can then
+    draw and write it like a single line.
+    """
+    from dataclasses import replace
+
+    from ..hydraulics.line import ReachBalance
+    from .plan import Plan
+
+    parts = [plan.links[k] for k in link_ids]
+    keys_p = ("chainage_m", "slope_length_m", "x", "y", "lon", "lat", "ground_m", "pipe_m", "filled")
+    keys_e = ("flow", "velocity", "static_head", "energy", "hgl", "pressure_head",
+              "static_pressure_head", "friction_loss", "reynolds", "arrival_hgl")
+    cols_p = {k: [] for k in keys_p}
+    cols_e = {k: [] for k in keys_e}
+    rating, required, inserted, vidx = [], [], [], []
+    stretches, features, tanks, outlets, reaches = [], [], [], [], []
+    di, dch, dsl, fric = 0, 0.0, 0.0, 0.0
+    for n, lk in enumerate(parts):
+        p, e = lk.profile, lk.energy
+        cut = 0 if n == 0 else 1                 # the junction is the parent's last point
+        for k in keys_p:
+            a = np.asarray(getattr(p, k))[cut:]
+            cols_p[k].append(a + dch if k == "chainage_m" else a + dsl if k == "slope_length_m" else a)
+        for k in keys_e:
+            a = np.asarray(getattr(e, k))[cut:]
+            cols_e[k].append(a + fric if k == "friction_loss" else a)
+        rating.append(lk.rating_head_m[cut:])
+        required.append(lk.required_pressure_m[cut:])
+        inserted.append((p.inserted if p.inserted is not None else np.zeros(p.n, bool))[cut:])
+        vidx.append(p.vertex_index[p.vertex_index >= cut] - cut + di)
+        shift = di - cut
+        stretches += _shift(lk.stretches, shift, dch)
+        features += _shift(lk.features, shift, dch)
+        tanks += _shift(lk.tanks, shift, dch)
+        outlets += _shift(lk.outlets, shift, dch)
+        reaches += [replace(r, start_index=r.start_index + shift, end_index=r.end_index + shift)
+                    for r in e.reaches]
+        di += p.n - cut
+        dch += p.length_m
+        dsl += float(p.slope_length_m[-1])
+        fric += float(e.friction_loss[-1])
+    prof0 = parts[0].profile
+    profile = Profile(**{k: np.concatenate(v) for k, v in cols_p.items()},
+                      vertex_index=np.unique(np.concatenate(vidx)).astype(np.int64),
+                      crs=prof0.crs, spacing_m=prof0.spacing_m, cover_m=prof0.cover_m,
+                      elevation_source=prof0.elevation_source, vertical_datum=prof0.vertical_datum,
+                      notes=tuple(n for lk in parts for n in lk.profile.notes),
+                      inserted=np.concatenate(inserted))
+    energy = LineEnergy(**{k: np.concatenate(v) for k, v in cols_e.items()}, reaches=tuple(reaches))
+    names = " > ".join(dict.fromkeys(lk.name for lk in parts))
+    sc = replace(plan.scenario, project=replace(plan.scenario.project,
+                                                name=f"{plan.scenario.project.name}: {names}"))
+    return Plan(scenario=sc, profile=profile, energy=energy, outlets=tuple(outlets),
+                tanks=tuple(tanks), source_top_level_m=plan.source_top_level_m,
+                source_low_level_m=plan.source_low_level_m,
+                total_flow_m3s=plan.link_flow_m3s[link_ids[0]], density=plan.density,
+                kinematic_viscosity=plan.kinematic_viscosity,
+                rating_head_m=np.concatenate(rating), findings=(), mode="design",
+                stretches=tuple(stretches), features=tuple(features), sizing=plan.sizing,
+                single_size_cost=plan.single_size_cost,
+                required_pressure_m=np.concatenate(required))

@@ -181,3 +181,56 @@ def write_plan_json(plan: Plan, path: str | Path) -> Path:
     """Write plan.json atomically."""
     text = json.dumps(plan_to_dict(plan), indent=1, ensure_ascii=False, allow_nan=False)
     return write_text(path, text + "\n")
+
+
+NETWORK_SCHEMA = "gravplan.network/1"
+
+
+def network_to_dict(plan, link_plans, drawings) -> dict:
+    """A branched system as JSON-ready data (docs/plan-json.md, "Networks")."""
+    first = plan_to_dict(link_plans[0])
+    per_link_keys = ("summary", "outlets", "break_pressure_tanks", "energy_balance", "stretches",
+                     "features", "points")
+    links = []
+    for lk, lp, flow in zip(plan.links, link_plans, plan.link_flow_m3s):
+        d = plan_to_dict(lp)
+        net_link = plan.network.links[lk.id]
+        links.append({"id": lk.id, "name": lk.name, "parent": lk.parent,
+                      "upstream_node": net_link.upstream, "downstream_node": net_link.downstream,
+                      "drawn_line": net_link.name,
+                      "starts_at_drawn_chainage_m": _f(net_link.offset_m, 2),
+                      "design_flow_lps": _f(flow / LPS, 4), **{k: d[k] for k in per_link_keys}})
+    s = plan.sizing
+    return {
+        "schema": NETWORK_SCHEMA, "mode": plan.mode,
+        "tool": first["tool"], "project": first["project"], "inputs": first["inputs"],
+        "water": first["water"], "source": first["source"],
+        "summary": {
+            "links": len(plan.links), "design_flow_lps": _f(plan.total_flow_m3s / LPS, 3),
+            "pipe_length_m": _f(sum(float(lk.profile.slope_length_m[-1]) for lk in plan.links), 2),
+            "pipe_cost": _f(plan.pipe_cost, 2),
+            "errors": sum(f.severity == "error" for f in plan.findings),
+            "warnings": sum(f.severity == "warning" for f in plan.findings),
+        },
+        "nodes": [{"id": i, "lon": _f(float(x), 7), "lat": _f(float(y), 7)}
+                  for i, (x, y) in enumerate(plan.network.nodes)],
+        "root_node": plan.network.root,
+        "links": links,
+        "drawings": drawings,
+        "sizing": {"method": s.method, "status": s.status, "objective": _f(s.cost, 2),
+                   "optimality_gap": s.gap, "lower_bound": _f(s.lower_bound, 2),
+                   "variables": s.variables, "constraints": s.constraints,
+                   "cheapest_single_size_cost": _f(plan.single_size_cost, 2)
+                   if plan.single_size_cost is not None else None},
+        "findings": [{"severity": f.severity, "code": f.code, "chainage_m": _f(f.chainage_m, 2),
+                      "chainage_end_m": _f(f.chainage_end_m, 2), "message": f.message,
+                      "remedy": f.remedy} for f in plan.findings],
+        "cautions": list(CAUTIONS),
+    }
+
+
+def write_network_json(plan, link_plans, drawings, path: str | Path) -> Path:
+    """Write a network's plan.json atomically."""
+    text = json.dumps(network_to_dict(plan, link_plans, drawings), indent=1, ensure_ascii=False,
+                      allow_nan=False)
+    return write_text(path, text + "\n")

@@ -71,88 +71,97 @@ def _overlay(grid: np.ndarray, transform, crs):
     return rgba, [[b, l], [t, r]]
 
 
-def build_map(plan: Plan, *, terrain=None):
-    """The folium Map of a plan.
+def build_map(plan, *, terrain=None, title: str | None = None):
+    """The folium Map of a plan, or of several line plans (the links of a tree).
 
     Parameters
     ----------
-    plan : Plan
+    plan : Plan or list of Plan
+        The first plan's start is the source.
     terrain : tuple, optional
         ``(grid, transform, crs)`` of a DEM window for the hillshade, from
         :func:`planner.geo.terrain.read_overview`.
+    title : str, optional
+        Heading of the page (default: the first plan's project name).
     """
     import branca.colormap as cm
     import folium
 
-    prof, e = plan.profile, plan.energy
-    if not np.all(np.isfinite(prof.lat)):
-        raise ValueError("the line has no coordinates to map")
-    step = max(1, prof.n // MAX_MAP_POINTS)
-    idx = np.unique(np.concatenate([np.arange(0, prof.n, step), [prof.n - 1]]))
-    lat, lon, p = prof.lat[idx], prof.lon[idx], e.pressure_head[idx]
-    m = folium.Map(location=[float(lat.mean()), float(lon.mean())], tiles=None,
+    plans = list(plan) if isinstance(plan, (list, tuple)) else [plan]
+    for pl in plans:
+        if not np.all(np.isfinite(pl.profile.lat)):
+            raise ValueError("the line has no coordinates to map")
+    lats = np.concatenate([pl.profile.lat for pl in plans])
+    lons = np.concatenate([pl.profile.lon for pl in plans])
+    m = folium.Map(location=[float(lats.mean()), float(lons.mean())], tiles=None,
                    control_scale=True, zoom_start=14)
     if terrain is not None:
         rgba, bounds = _overlay(*terrain)
         folium.raster_layers.ImageOverlay(rgba, bounds=bounds, name="hillshade (DEM)",
                                           opacity=0.9, mercator_project=False).add_to(m)
-    vmax = float(max(np.nanmax(plan.rating_head_m), np.nanmax(e.static_pressure_head)))
+    vmax = float(max(max(np.nanmax(pl.rating_head_m), np.nanmax(pl.energy.static_pressure_head))
+                     for pl in plans))
+    vmin = float(min(0.0, min(np.nanmin(pl.energy.pressure_head) for pl in plans)))
     cmap = cm.LinearColormap(["#b2182b", "#f4a582", "#92c5de", "#2166ac", "#053061"],
-                             vmin=float(min(0.0, np.nanmin(p))), vmax=vmax,
-                             caption="pressure head at design flow [m]")
+                             vmin=vmin, vmax=vmax, caption="pressure head at design flow [m]")
     route = folium.FeatureGroup(name="pipeline (pressure head)")
-    folium.ColorLine(np.column_stack([lat, lon]).tolist(), colors=p[:-1].tolist(),
-                     colormap=cmap, weight=6).add_to(route)
-    route.add_to(m)
-    cmap.add_to(m)
-
     marks = folium.FeatureGroup(name="source, tanks, outlets")
-    sc = plan.scenario
+    valves = folium.FeatureGroup(name="air valves and washouts")
     esc = html.escape
+    sc = plans[0].scenario
+    colours = {"air_valve": "#f1c40f", "washout": "#8e44ad"}
+    for n, pl in enumerate(plans):
+        prof, e = pl.profile, pl.energy
+        step = max(1, prof.n // MAX_MAP_POINTS)
+        idx = np.unique(np.concatenate([np.arange(0, prof.n, step), [prof.n - 1]]))
+        folium.ColorLine(np.column_stack([prof.lat[idx], prof.lon[idx]]).tolist(),
+                         colors=e.pressure_head[idx][:-1].tolist(), colormap=cmap,
+                         weight=6).add_to(route)
 
-    def marker(i, label, popup, colour, radius=8):
-        folium.CircleMarker([float(prof.lat[i]), float(prof.lon[i])], radius=radius,
-                            color="black", weight=2, fill=True, fill_color=colour,
-                            fill_opacity=0.95, tooltip=esc(label),
-                            popup=folium.Popup(popup, max_width=320),
-                            class_name="plan-marker").add_to(marks)
+        def marker(i, label, popup, colour, radius=8, prof=prof):
+            folium.CircleMarker([float(prof.lat[i]), float(prof.lon[i])], radius=radius,
+                                color="black", weight=2, fill=True, fill_color=colour,
+                                fill_opacity=0.95, tooltip=esc(label),
+                                popup=folium.Popup(popup, max_width=320),
+                                class_name="plan-marker").add_to(marks)
 
-    marker(0, sc.source.name, f"<b>{esc(sc.source.name)}</b><br>top water level "
-           f"{plan.source_top_level_m:.1f} m<br>low water level {plan.source_low_level_m:.1f} m",
-           "#1f4e9c", 10)
-    for t in plan.tanks:
-        marker(t.index, t.name, f"<b>{esc(t.name)}</b> (break-pressure tank)<br>chainage "
-               f"{t.chainage_m:,.0f} m<br>water level {t.water_level_m:.1f} m<br>head "
-               f"dissipated {t.dissipated_m:.1f} m", "#ffffff")
-    for o in plan.outlets:
-        marker(o.index, o.name, f"<b>{esc(o.name)}</b> ({esc(o.kind)})<br>chainage "
-               f"{o.chainage_m:,.0f} m<br>flow {o.flow_m3s * 1e3:.2f} L/s<br>residual pressure "
-               f"{o.pressure_head_m:.1f} m (min {o.min_pressure_m:g} m)",
-               "#2e8b57" if o.ok else "#c0392b")
-    marks.add_to(m)
-    if plan.features:
-        valves = folium.FeatureGroup(name="air valves and washouts")
-        colours = {"air_valve": "#f1c40f", "washout": "#8e44ad"}
-        for f in plan.features:
-            title = f.kind.replace("_", " ")
+        if n == 0:
+            marker(0, sc.source.name, f"<b>{esc(sc.source.name)}</b><br>top water level "
+                   f"{pl.source_top_level_m:.1f} m<br>low water level {pl.source_low_level_m:.1f} m",
+                   "#1f4e9c", 10)
+        for t in pl.tanks:
+            marker(t.index, t.name, f"<b>{esc(t.name)}</b> (break-pressure tank)<br>chainage "
+                   f"{t.chainage_m:,.0f} m<br>water level {t.water_level_m:.1f} m<br>head "
+                   f"dissipated {t.dissipated_m:.1f} m<br>{esc(t.rule)}", "#ffffff")
+        for o in pl.outlets:
+            marker(o.index, o.name, f"<b>{esc(o.name)}</b> ({esc(o.kind)})<br>chainage "
+                   f"{o.chainage_m:,.0f} m<br>flow {o.flow_m3s * 1e3:.2f} L/s<br>residual pressure "
+                   f"{o.pressure_head_m:.1f} m (min {o.min_pressure_m:g} m)",
+                   "#2e8b57" if o.ok else "#c0392b")
+        for f in pl.features:
+            kind = f.kind.replace("_", " ")
             size = f" DN{f.size_mm:.0f}" if f.size_mm else ""
             folium.CircleMarker(
                 [float(prof.lat[f.index]), float(prof.lon[f.index])], radius=5, color="black",
                 weight=1, fill=True, fill_color=colours.get(f.kind, "#999999"), fill_opacity=1.0,
-                tooltip=esc(f"{title} at {f.chainage_m:,.0f} m"), class_name=f"plan-feature {f.kind}",
-                popup=folium.Popup(f"<b>{esc(title)}{esc(size)}</b><br>chainage {f.chainage_m:,.0f} m"
+                tooltip=esc(f"{kind} at {f.chainage_m:,.0f} m"), class_name=f"plan-feature {f.kind}",
+                popup=folium.Popup(f"<b>{esc(kind)}{esc(size)}</b><br>chainage {f.chainage_m:,.0f} m"
                                    f"<br>pipe elevation {f.elevation_m:.1f} m<br>rule: {esc(f.rule)}"
                                    f"<br>source: {esc(f.source)}<br>{esc(f.detail)}",
                                    max_width=340)).add_to(valves)
+    route.add_to(m)
+    cmap.add_to(m)
+    marks.add_to(m)
+    if any(pl.features for pl in plans):
         valves.add_to(m)
     folium.LayerControl(position="bottomright", collapsed=False).add_to(m)
-    m.fit_bounds([[float(lat.min()), float(lon.min())], [float(lat.max()), float(lon.max())]],
+    m.fit_bounds([[float(lats.min()), float(lons.min())], [float(lats.max()), float(lons.max())]],
                  padding=(40, 40))
-    title = (f"<div style='position:fixed;top:10px;left:60px;z-index:1000;background:white;"
-             f"padding:6px 10px;border:1px solid #888;font:13px sans-serif;max-width:60%'>"
-             f"<b>{esc(sc.project.name)}</b><br>Planning aid only: confirm levels in the field; "
-             f"local codes and a licensed engineer take precedence.</div>")
-    m.get_root().html.add_child(folium.Element(title))
+    heading = (f"<div style='position:fixed;top:10px;left:60px;z-index:1000;background:white;"
+               f"padding:6px 10px;border:1px solid #888;font:13px sans-serif;max-width:60%'>"
+               f"<b>{esc(title or sc.project.name)}</b><br>Planning aid only: confirm levels in the "
+               f"field; local codes and a licensed engineer take precedence.</div>")
+    m.get_root().html.add_child(folium.Element(heading))
     dot = ("<span style='display:inline-block;width:11px;height:11px;border-radius:6px;"
            "border:1px solid #000;background:{};margin-right:5px'></span>{}<br>")
     legend = "".join(dot.format(c, esc(t)) for c, t in (
@@ -166,7 +175,7 @@ def build_map(plan: Plan, *, terrain=None):
     return m
 
 
-def write_map(plan: Plan, path: str | Path, *, terrain=None) -> Path:
-    """Write map.html atomically."""
-    m = build_map(plan, terrain=terrain)
+def write_map(plan, path: str | Path, *, terrain=None, title: str | None = None) -> Path:
+    """Write map.html atomically (one plan, or a list of link plans)."""
+    m = build_map(plan, terrain=terrain, title=title)
     return write_text(path, make_offline(m.get_root().render()))

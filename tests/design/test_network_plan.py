@@ -1,0 +1,91 @@
+"""The branched demo, designed as one tree, rechecked independently."""
+
+import json
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+from fluids.friction import Colebrook
+from iapws import IAPWS95
+
+from planner.cli import main
+from planner.design.network_plan import as_line_plan, plan_network
+from planner.scenario import load_scenario
+
+G = 9.80665
+
+
+@pytest.fixture(scope="module")
+def tree(demo_folder):
+    return plan_network(load_scenario(demo_folder / "scenario_network.toml"))
+
+
+def test_mass_balance_at_every_node(tree):
+    for k, lk in enumerate(tree.links):
+        kids = [c for c in tree.links if c.parent == k]
+        drawn_at_end = sum(o.flow_m3s for o in lk.outlets if o.index == lk.profile.n - 1)
+        arriving = lk.energy.flow[-1]
+        leaving = sum(c.energy.flow[0] for c in kids) + drawn_at_end
+        assert arriving == pytest.approx(leaving, abs=1e-12)
+    total = sum(o.flow_m3s for o in tree.outlets)
+    root = [lk for lk in tree.links if lk.parent < 0]
+    assert sum(lk.energy.flow[0] for lk in root) == pytest.approx(total, abs=1e-12)
+
+
+def test_energy_runs_on_through_junctions_and_friction_is_right(tree):
+    w = IAPWS95(T=293.15, P=0.101325)
+    nu = w.mu / w.rho
+    for lk in tree.links:
+        if lk.parent >= 0:
+            up = tree.links[lk.parent].energy
+            assert lk.energy.energy[0] == pytest.approx(up.energy[-1], abs=1e-9)
+            assert lk.energy.static_head[0] == pytest.approx(up.static_head[-1], abs=1e-9)
+        # friction of each stretch recomputed with fluids (IAPWS viscosity)
+        prof = lk.profile
+        for st in lk.stretches:
+            d, eps = st.option.inside_diameter, st.option.roughness
+            sl = np.diff(prof.slope_length_m[st.start_index:st.end_index + 1])
+            q = lk.energy.flow[st.start_index:st.end_index]
+            v = q / (np.pi * d**2 / 4)
+            hf = sum(Colebrook(vi * d / nu, eps / d) * li / d * vi**2 / (2 * G) if vi > 0 else 0.0
+                     for vi, li in zip(v, sl))
+            ours = lk.energy.friction_loss[st.end_index] - lk.energy.friction_loss[st.start_index]
+            assert ours == pytest.approx(hf, rel=2e-3, abs=1e-6)
+
+
+def test_every_limit_is_met(tree):
+    assert not tree.errors
+    for lk in tree.links:
+        assert np.all(lk.energy.pressure_head >= lk.required_pressure_m - 1e-3)
+        assert np.all(lk.energy.velocity <= 3.0 + 1e-9)
+        for st in lk.stretches:
+            assert st.max_static_head_m <= st.rating_head_m + 1e-6
+            assert st.max_static_head_m <= 100 + 1e-6            # design.max_static_pressure_m
+    assert all(o.ok for o in tree.outlets)
+    assert tree.pipe_cost >= tree.sizing.lower_bound - 1e-6
+    assert tree.single_size_cost is None or tree.pipe_cost <= tree.single_size_cost
+
+
+def test_paths_join_links_without_gaps(tree):
+    ends = [k for k in range(len(tree.links)) if not any(lk.parent == k for lk in tree.links)]
+    assert len(ends) == 3
+    for k in ends:
+        path = as_line_plan(tree, tree.path(k))
+        assert np.all(np.diff(path.profile.chainage_m) > 0)
+        expected = sum(tree.links[i].profile.length_m for i in tree.path(k))
+        assert path.profile.length_m == pytest.approx(expected)
+
+
+def test_cli_writes_the_network_outputs(demo_folder, tmp_path):
+    res = CliRunner().invoke(main, ["plan", str(demo_folder / "scenario_network.toml"),
+                                    "--out", str(tmp_path)])
+    assert res.exit_code == 0, res.output
+    data = json.loads((tmp_path / "plan.json").read_text())
+    assert data["schema"] == "gravplan.network/1" and len(data["links"]) == 5
+    assert len(data["drawings"]) == 3
+    for d in data["drawings"]:
+        assert (tmp_path / d["file"]).read_bytes()[:4] == b"\x89PNG"
+    assert (tmp_path / "map.html").stat().st_size > 10_000
+    names = {o["name"] for lk in data["links"] for o in lk["outlets"]}
+    assert names == {"Tamsel tap stands", "Tamsel school", "Orun fields hydrant",
+                     "Orun irrigation block"}
