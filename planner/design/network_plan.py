@@ -491,7 +491,6 @@ def as_line_plan(plan: NetworkPlan, link_ids: list[int]):
     """
     from dataclasses import replace
 
-    from ..hydraulics.line import ReachBalance
     from .plan import Plan
 
     parts = [plan.links[k] for k in link_ids]

@@ -240,6 +240,8 @@ def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray 
     """
     if whole not in (None, "reach", "piece"):
         raise ValueError(f"whole must be None, 'reach' or 'piece', got {whole!r}")
+    if whole == "reach":
+        return _one_size_per_reach(p, time_limit=time_limit, mip_rel_gap=mip_rel_gap)
     t0 = time.perf_counter()
     m = _build(p)
     K, J = p.allowed.shape
@@ -269,7 +271,7 @@ def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray 
     # whole choices: binaries y[u, g]; x[k, j] <= L_k y[u(k), g(j)]; sum_g y[u, g] = 1
     groups = np.unique(p.group)
     if whole == "reach":
-        unit_of_piece = np.empty(K, dtype=np.int64)
+        unit_of_piece = np.full(K, -1, dtype=np.int64)
         for ri, ks in enumerate(_reach_pieces(p)):
             unit_of_piece[ks] = ri
         n_units = len(p.reaches)
@@ -322,6 +324,114 @@ def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray 
                         gap=gap, lower_bound=float(bound if bound is not None else res.fun),
                         seconds=time.perf_counter() - t0, variables=nvar,
                         constraints=ncons + nt + n_units)
+
+
+def _one_size_per_reach(p: SizingProblem, *, time_limit: float, mip_rel_gap: float) -> SizingResult:
+    """One diameter per reach, as a compact MILP: a binary per reach and size only.
+
+    With the size fixed, each piece takes that size's cheapest admissible class, so the
+    head loss to every point of the reach is a known number per size; the heads are
+    linear in the binaries.  Variables: the binaries and one energy head per reach end.
+    """
+    t0 = time.perf_counter()
+    K, J = p.allowed.shape
+    groups = np.unique(p.group)
+    pieces_of = _reach_pieces(p)
+    R, G_ = len(p.reaches), groups.size
+    big = np.full(p.cost.shape, np.inf)
+    # the option each (piece, size) would use, or -1
+    pick = np.full((K, G_), -1, dtype=np.int64)
+    for gi, g in enumerate(groups):
+        cols = np.flatnonzero(p.group == g)
+        costs = np.where(p.allowed[:, cols], p.cost[cols][None, :], np.inf)
+        best = np.argmin(costs, axis=1)
+        ok = np.isfinite(costs[np.arange(K), best])
+        pick[ok, gi] = cols[best[ok]]
+    del big
+    ny = R * G_
+    nh = R                                       # energy head at each reach's end
+    nvar = ny + nh
+    c = np.zeros(nvar)
+    yub = np.ones(ny)
+    rows, cols_, vals, lo, hi = [], [], [], [], []
+    row = 0
+    end_of = {}
+    for ri, ks in enumerate(pieces_of):
+        a, b = p.reaches[ri]
+        parent = p.linked(ri)
+        pts_split = p.splits[ks[0]:ks[-1] + 2]
+        # cumulative loss per size at every point of the reach (pieces and their inner points)
+        pts = np.arange(a, b + 1)
+        cum = np.zeros((pts.size, G_))
+        for gi in range(G_):
+            if np.any(pick[ks, gi] < 0):
+                yub[ri * G_ + gi] = 0.0
+                continue
+            c[ri * G_ + gi] = float(np.sum(p.cost[pick[ks, gi]] * p.piece_length[ks]))
+            loss_k = p.unit_loss[ks, pick[ks, gi]] * p.piece_length[ks]
+            m = p.fitting_loss[p.splits[ks + 1]].copy()
+            if _ends_at_tank(p, ri):
+                m[-1] = 0.0
+            at_split = np.concatenate([[0.0], np.cumsum(loss_k + m)])
+            cum[:, gi] = np.interp(p.position[pts] - p.position[a] + 0.0,
+                                   p.position[pts_split] - p.position[a], at_split)
+        # h_point = h_start - sum_g y_g cum_g(point) >= need(point)
+        need = p.min_energy[pts].copy()
+        if _ends_at_tank(p, ri):
+            need[-1] = max(need[-1], p.arrival_min_energy[ri])
+        ycols = ri * G_ + np.arange(G_)
+        start_var = end_of[parent] if parent >= 0 else None
+        start_val = p.start_energy[ri] if parent < 0 else 0.0
+        for i in range(1, pts.size):
+            r_c = list(ycols)
+            r_v = list(-cum[i])
+            if start_var is not None:
+                r_c.append(start_var)
+                r_v.append(1.0)
+            rows += [row] * len(r_c)
+            cols_ += r_c
+            vals += r_v
+            lo.append(need[i] - start_val)
+            hi.append(np.inf)
+            row += 1
+        # the reach's end head: h_end + sum_g y_g cum_g(end) - h_start = 0
+        end_var = ny + ri
+        r_c = list(ycols) + [end_var] + ([start_var] if start_var is not None else [])
+        r_v = list(cum[-1]) + [1.0] + ([-1.0] if start_var is not None else [])
+        rows += [row] * len(r_c)
+        cols_ += r_c
+        vals += r_v
+        lo.append(start_val)
+        hi.append(start_val)
+        row += 1
+        end_of[b] = end_var
+        # one size
+        rows += [row] * G_
+        cols_ += list(ycols)
+        vals += [1.0] * G_
+        lo.append(1.0)
+        hi.append(1.0)
+        row += 1
+    A = csr_matrix((vals, (rows, cols_)), shape=(row, nvar))
+    res = milp(c, constraints=[LinearConstraint(A, np.array(lo), np.array(hi))],
+               bounds=Bounds(np.concatenate([np.zeros(ny), np.full(nh, -np.inf)]),
+                             np.concatenate([yub, np.full(nh, np.inf)])),
+               integrality=np.concatenate([np.ones(ny), np.zeros(nh)]),
+               options=dict(time_limit=time_limit, mip_rel_gap=mip_rel_gap))
+    if res.x is None:
+        raise DesignError("no design with one pipe size per reach meets the limits "
+                          f"({res.message}); allow size changes")
+    y = np.round(res.x[:ny]).reshape(R, G_)
+    x = np.zeros((K, J))
+    for ri, ks in enumerate(pieces_of):
+        gi = int(np.argmax(y[ri]))
+        x[ks, pick[ks, gi]] = p.piece_length[ks]
+    bound = getattr(res, "mip_dual_bound", None)
+    return SizingResult(lengths=x, cost=float(res.fun), method="MILP, one size per reach",
+                        status="optimal" if res.status == 0 else "time limit (best found)",
+                        gap=float(getattr(res, "mip_gap", 0.0) or 0.0),
+                        lower_bound=float(bound if bound is not None else res.fun),
+                        seconds=time.perf_counter() - t0, variables=nvar, constraints=row)
 
 
 def solve_whole_pieces(p: SizingProblem, *, rounds: int = 6, time_limit: float = 10.0) -> SizingResult:

@@ -13,7 +13,6 @@ from pathlib import Path
 
 import numpy as np
 
-from ..design.plan import Plan
 from .files import write_text
 from .offline import make_offline
 
