@@ -82,6 +82,7 @@ class Outlet:
     basis: str = "flow given"
     daily_volume_m3: float | None = None
     link: str | None = None
+    max_pressure_m: float | None = None
 
 
 @dataclass(frozen=True)
@@ -121,6 +122,7 @@ class Criteria:
     grade_window_m: float = 100.0
     air_valve_spacing_m: float = 800.0
     long_ascent_m: float = 500.0
+    max_outlet_pressure_m: float = 60.0
 
     @property
     def wall_temperature_c(self) -> float:
@@ -188,7 +190,8 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
                  "siphon_margin_m": (_NUM, False), "valve_closure_s": (_NUM, False),
                  "surge_rating_factor": (_NUM, False), "feature_prominence_m": (_NUM, False),
                  "grade_break": (_NUM, False), "grade_window_m": (_NUM, False),
-                 "air_valve_spacing_m": (_NUM, False), "long_ascent_m": (_NUM, False)},
+                 "air_valve_spacing_m": (_NUM, False), "long_ascent_m": (_NUM, False),
+                 "max_outlet_pressure_m": (_NUM, False)},
     "design": {"catalogues": (list, False), "materials": (list, False),
                "min_size_mm": (_NUM, False), "max_size_mm": (_NUM, False),
                "one_size_per_reach": (bool, False), "auto_tanks": (bool, False),
@@ -198,7 +201,7 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
 }
 TABLE_ARRAYS = {
     "outlets": {"name": (str, True), "flow_lps": (_NUM, False), "demand": (dict, False),
-                "link": (str, False),
+                "link": (str, False), "max_pressure_m": (_NUM, False),
                 "min_pressure_m": (_NUM, False),
                 "chainage_m": (_NUM, False), "location": (list, False), "kind": (str, False)},
     "break_pressure_tanks": {"name": (str, False), "chainage_m": (_NUM, True),
@@ -446,7 +449,10 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
             min_pressure_m=float(o.get("min_pressure_m", DEFAULT_OUTLET_MIN_PRESSURE_M)),
             chainage_m=o.get("chainage_m"), location=tuple(loc) if loc else None,
             kind=o.get("kind", "outlet"), basis=basis, daily_volume_m3=volume,
-            link=o.get("link")))
+            link=o.get("link"), max_pressure_m=o.get("max_pressure_m")))
+        if "max_pressure_m" in o and o["max_pressure_m"] <= float(o.get(
+                "min_pressure_m", DEFAULT_OUTLET_MIN_PRESSURE_M)):
+            problems.add(f"{key}.max_pressure_m", "must be above min_pressure_m")
     if "outlets" in data and not outlets:
         problems.add("outlets", "at least one outlet is needed")
     if "outlets" not in data:

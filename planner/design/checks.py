@@ -169,9 +169,24 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
     return out
 
 
-def check_outlet(name: str, chainage: float, pressure_head: float, min_pressure: float) -> list[Finding]:
-    """Residual pressure at an outlet against its minimum."""
-    if pressure_head >= min_pressure:
+def check_outlet(name: str, chainage: float, pressure_head: float, min_pressure: float,
+                 max_pressure: float | None = None) -> list[Finding]:
+    """Residual pressure at an outlet against its minimum and maximum.
+
+    Too much pressure at a tap wastes water and breaks taps and floats: the maximum is
+    the outlet's own ``max_pressure_m`` or ``criteria.max_outlet_pressure_m`` (60 m,
+    the upper design value listed in Malaysian distribution criteria, as read in
+    ../shared/domain.md 4.2 [M]; South Africa's DWAF guideline caps static at 90 m).
+    """
+    if max_pressure is not None and pressure_head > max_pressure + 1e-3:
+        return [Finding(
+            "warning", "outlet-pressure-high",
+            f"{name} at chainage {chainage:,.0f} m gets {pressure_head:.1f} m of pressure head at "
+            f"design flow, above {max_pressure:g} m: water is wasted and taps and floats wear out",
+            "put a break-pressure tank or a pressure-reducing valve upstream, or a smaller pipe "
+            "on the branch (give the outlet max_pressure_m and the design will burn the head)",
+            chainage, chainage)]
+    if pressure_head >= min_pressure - 5e-4:
         return []
     return [Finding(
         "error", "outlet-pressure",

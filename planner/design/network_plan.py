@@ -266,6 +266,11 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
     allowed_k = [_cheapest_per_size(np.logical_and.reduceat(a, sp[:-1], axis=0), options)
                  for a, sp in zip(allowed, splits_local)]
     extra = [np.zeros(p.n) for p in profiles]
+    # an outlet's own maximum pressure is a limit of the design
+    caps = [np.full(p.n, np.inf) for p in profiles]
+    for o, kk, j in placed:
+        if o.max_pressure_m is not None:
+            caps[kk][j] = o.max_pressure_m
     hv_k = [np.min(np.where(ak, cand[k][1][sp[:-1]], np.inf), axis=1)
             for k, (ak, sp) in enumerate(zip(allowed_k, splits_local))]
     final = "reach" if d.one_size_per_reach else "pieces" if d.whole_pieces else "lp"
@@ -274,7 +279,7 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
         for _ in range(12):
             problem, piece_rows = _tree_problem(profiles, parents, surfaces, reaches_local,
                                                 splits_local, allowed_k, cand, hv_k, required,
-                                                extra, offsets, options, top, low, cr)
+                                                extra, offsets, options, top, low, cr, caps)
             sizing = (solve_sizing(problem, whole="reach") if stage == "reach" else
                       solve_whole_pieces(problem) if stage == "pieces" else solve_sizing(problem))
             built = [_build_line(prof, sp, sizing.lengths[rows], options)
@@ -331,7 +336,8 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
             name=o.name, kind=o.kind, chainage_m=float(profiles[k].chainage_m[j]), index=int(remap[j]),
             flow_m3s=o.flow_m3s, ground_m=float(profiles[k].ground_m[j]),
             pressure_head_m=float(e.pressure_head[remap[j]]), min_pressure_m=o.min_pressure_m,
-            basis=o.basis) for o, kk, j in placed if kk == k)
+            basis=o.basis, max_pressure_m=o.max_pressure_m if o.max_pressure_m is not None
+            else cr.max_outlet_pressure_m) for o, kk, j in placed if kk == k)
         static_check = e.static_pressure_head.copy()
         rating_check = pt_rating.copy()
         for prev, nxt in zip(surfaces[k][:-1], surfaces[k][1:]):
@@ -343,7 +349,8 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
                            elevation=refined.pipe_m, temperature_c=cr.temperature_c,
                            surface_index=tuple(surf_r))
         for o in outs:
-            local += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m)
+            local += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m,
+                                o.max_pressure_m)
         for t in tanks:
             local += check_tank(t.name, t.chainage_m, t.arrival_hgl_m,
                                 t.water_level_m + cr.tank_inlet_head_m)
@@ -363,6 +370,13 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
                                    tanks=tuple(tanks), outlets=outs, rating_head_m=pt_rating,
                                    required_pressure_m=req_r[k]))
     findings += [Finding("note", "network", n) for n in net.notes]
+    for k, lk in enumerate(link_plans):
+        if not children[k] and not lk.outlets:
+            findings.append(Finding(
+                "warning", "dangling-end",
+                f"{lk.name} ends with no outlet: the water in it stands still (stale water, "
+                "sediment)", "remove the line, or add the outlet it is meant to serve",
+                lk.profile.length_m, lk.profile.length_m))
     if not converged:
         findings.append(Finding("warning", "sizing-recheck", "the sized tree still falls short of "
                                 "a limit after 12 rechecks (see the other findings)",
@@ -382,12 +396,12 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
 
 
 def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allowed_k, cand,
-                  hv_k, required, extra, offsets, options, top, low, cr):
+                  hv_k, required, extra, offsets, options, top, low, cr, caps):
     """The split-pipe programme of the whole tree: links numbered one after another."""
     J = len(options)
     split_g, allowed_rows, loss_rows, rows_of = [], [], [], []
     reaches, start, arrival, parent_pt = [], [], [], []
-    min_e, pos, fit = [], [], []
+    min_e, pos, fit, max_e = [], [], [], []
     row = 0
     for k, prof in enumerate(profiles):
         sp = splits_local[k]
@@ -404,6 +418,7 @@ def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allo
         hv_seg = hv_k[k][piece_of_seg]
         hv_pt = np.append(hv_seg, hv_seg[-1])
         min_e.append(prof.pipe_m + required[k] + extra[k] + hv_pt + 1e-3)
+        max_e.append(prof.pipe_m + caps[k])
         pos.append(prof.slope_length_m)
         fit.append(np.zeros(prof.n))
         surf = surfaces[k]
@@ -429,7 +444,7 @@ def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allo
         cost=np.array([o.cost_per_m for o in options]), group=group, reaches=reaches,
         start_energy=np.array(start), min_energy=np.concatenate(min_e),
         arrival_min_energy=np.array(arrival), fitting_loss=np.concatenate(fit),
-        parent_point=np.array(parent_pt, dtype=np.int64))
+        parent_point=np.array(parent_pt, dtype=np.int64), max_energy=np.concatenate(max_e))
     return problem, rows_of
 
 

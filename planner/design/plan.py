@@ -55,6 +55,7 @@ class OutletResult:
     pressure_head_m: float
     min_pressure_m: float
     basis: str = "flow given"
+    max_pressure_m: float | None = None
 
     @property
     def ok(self) -> bool:
@@ -354,6 +355,13 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                                        options)
         hv_k = np.min(np.where(allowed_k, hv_cand[splits[:-1]], np.inf), axis=1)
         extra = np.zeros(n)
+        # an outlet's own maximum pressure is a limit of the design (head burnt in the pipe)
+        max_pressure = None
+        if any(o.max_pressure_m is not None for o, _ in placed):
+            max_pressure = np.full(n, np.inf)
+            for o, j in placed:
+                if o.max_pressure_m is not None:
+                    max_pressure[j] = o.max_pressure_m
         final = ("reach" if sc.design.one_size_per_reach else
                  "pieces" if sc.design.whole_pieces else "lp")
         # the LP converges the velocity heads and tightenings cheaply; the final method
@@ -363,7 +371,7 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
             for _ in range(12):
                 problem = _problem(prof, options, allowed_k, loss_cand[splits[:-1]],
                                    hv_k[piece_of_seg], surfaces, reaches, required + extra,
-                                   point_k, cr, splits)
+                                   point_k, cr, splits, max_pressure)
                 sizing = (solve_sizing(problem, whole="reach") if stage == "reach" else
                           solve_whole_pieces(problem) if stage == "pieces" else
                           solve_sizing(problem))
@@ -394,7 +402,9 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     outlets = tuple(OutletResult(
         name=o.name, kind=o.kind, chainage_m=float(ch[j]), index=int(remap[j]), flow_m3s=o.flow_m3s,
         ground_m=float(prof.ground_m[j]), pressure_head_m=float(energy.pressure_head[remap[j]]),
-        min_pressure_m=o.min_pressure_m, basis=o.basis) for o, j in placed)
+        min_pressure_m=o.min_pressure_m, basis=o.basis,
+        max_pressure_m=o.max_pressure_m if o.max_pressure_m is not None
+        else cr.max_outlet_pressure_m) for o, j in placed)
     tanks = tuple(TankResult(name=name, chainage_m=float(ch[s.index]), index=int(remap[s.index]),
                              water_level_m=s.level,
                              arrival_hgl_m=float(energy.arrival_hgl[remap[s.index]]), rule=s.rule)
@@ -427,7 +437,8 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                            temperature_c=cr.temperature_c,
                            surface_index=tuple(f.index for f in surfaces_r))
     for o in outlets:
-        findings += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m)
+        findings += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m,
+                                o.max_pressure_m)
     for t in tanks:
         findings += check_tank(t.name, t.chainage_m, t.arrival_hgl_m,
                                t.water_level_m + cr.tank_inlet_head_m)
@@ -605,7 +616,7 @@ def _split_points(prof, reaches, placed, point_k, spacing):
 
 
 def _problem(prof, options, allowed_k, loss_k, hv_seg, surfaces, reaches, required, point_k,
-             cr, splits):
+             cr, splits, max_pressure=None):
     """The split-pipe programme for this line (see sizing.py).
 
     ``hv_seg`` is the velocity head assumed in each segment [m], for the velocity head
@@ -625,7 +636,8 @@ def _problem(prof, options, allowed_k, loss_k, hv_seg, surfaces, reaches, requir
         reaches=reaches, start_energy=start,
         # 1 mm above each limit, so that rounding never shows a designed point as short
         min_energy=prof.pipe_m + required + hv_pt + 1e-3,
-        arrival_min_energy=arrival, fitting_loss=point_k * hv_pt)
+        arrival_min_energy=arrival, fitting_loss=point_k * hv_pt,
+        max_energy=None if max_pressure is None else prof.pipe_m + max_pressure)
 
 
 def _build_line(prof: Profile, splits: NDArray, lengths: NDArray, options: list[PipeOption]):

@@ -94,6 +94,8 @@ class SizingProblem:
     arrival_min_energy: NDArray[np.float64]
     fitting_loss: NDArray[np.float64]
     parent_point: NDArray[np.int64] | None = None
+    #: Highest energy head allowed at each point [m] (an outlet's maximum pressure); None: no limit.
+    max_energy: NDArray[np.float64] | None = None
 
     def linked(self, ri: int) -> int:
         """The junction point a reach starts from, or -1 for a free surface."""
@@ -206,6 +208,9 @@ def _build(p: SizingProblem):
         lb[own] = p.min_energy[pts[-own.size:]]
         if _ends_at_tank(p, ri):
             lb[heads[-1]] = max(p.min_energy[pts[-1]], p.arrival_min_energy[ri])
+        if p.max_energy is not None:
+            cap = p.max_energy[pts[-own.size:]]
+            ub[own] = np.minimum(ub[own], cap)
         if p.linked(ri) < 0:
             lb[heads[0]] = ub[heads[0]] = p.start_energy[ri]
     A_eq = csr_matrix((np.concatenate(eq_v), (np.concatenate(eq_r), np.concatenate(eq_c))),
@@ -392,7 +397,8 @@ def _one_size_per_reach(p: SizingProblem, *, time_limit: float, mip_rel_gap: flo
             cols_ += r_c
             vals += r_v
             lo.append(need[i] - start_val)
-            hi.append(np.inf)
+            cap = np.inf if p.max_energy is None else p.max_energy[pts[i]]
+            hi.append(cap - start_val)
             row += 1
         # the reach's end head: h_end + sum_g y_g cum_g(end) - h_start = 0
         end_var = ny + ri
@@ -490,6 +496,8 @@ def is_feasible(p: SizingProblem, lengths: NDArray, tol: float = 1e-6) -> bool:
         if _ends_at_tank(p, ri):
             need[-1] = max(need[-1], p.arrival_min_energy[ri])
         if np.any(h[1:] < need[1:] - tol):
+            return False
+        if p.max_energy is not None and np.any(h > p.max_energy[pts] + tol):
             return False
         for kk, k in enumerate(ks):
             u, w = p.splits[k], p.splits[k + 1]

@@ -89,3 +89,18 @@ def test_cli_writes_the_network_outputs(demo_folder, tmp_path):
     names = {o["name"] for lk in data["links"] for o in lk["outlets"]}
     assert names == {"Tamsel tap stands", "Tamsel school", "Orun fields hydrant",
                      "Orun irrigation block"}
+
+
+def test_a_branch_without_outlet_is_reported(demo_folder, tmp_path):
+    import re
+    import shutil
+
+    text = (demo_folder / "scenario_network.toml").read_text()
+    text = re.sub(r"\[\[outlets\]\]\nname = \"Tamsel school\".*?min_pressure_m = 8\n", "", text,
+                  flags=re.S)
+    for name in ("dem.tif", "network.geojson"):
+        shutil.copy(demo_folder / name, tmp_path / name)
+    (tmp_path / "s.toml").write_text(text)
+    plan = plan_network(load_scenario(tmp_path / "s.toml"))
+    dangling = [f for f in plan.findings if f.code == "dangling-end"]
+    assert len(dangling) == 1 and dangling[0].message.startswith("Tamsel school branch ends")

@@ -248,3 +248,20 @@ def test_peak_above_yield_needs_storage_not_more_water(ramp_site):
     src = src.replace("yield_lps = 1.5", "yield_lps = 0.5")    # 43 m3/day < 80 m3/day
     plan = plan_scenario(load_scenario(scenario(ramp_site, outlets=outlets, source=src)))
     assert any(f.code == "yield-exceeded" and f.severity == "error" for f in plan.findings)
+
+
+def test_outlet_maximum_pressure(ramp_site):
+    # a given 61 mm pipe over 140 m of fall leaves far more pressure than a tap should see
+    plan = plan_scenario(load_scenario(scenario(ramp_site)))
+    assert any(f.code == "outlet-pressure-high" and f.severity == "warning" for f in plan.findings)
+    # designed, with a cap at the first outlet: the programme keeps it within the cap
+    two = ('[[outlets]]\nname = "mid"\nchainage_m = 1500\nflow_lps = 0.5\nmax_pressure_m = 11\n'
+           '[[outlets]]\nname = "end"\nchainage_m = 3500\nflow_lps = 2.0\n')
+    free = plan_scenario(load_scenario(design_scenario(ramp_site, outlets=two.replace(
+        "max_pressure_m = 11\n", ""))))
+    assert free.outlets[0].pressure_head_m > 11.5            # the cap below must bind
+    capped = plan_scenario(load_scenario(design_scenario(ramp_site, outlets=two)))
+    mid, end = capped.outlets
+    assert 10 - 1e-3 <= mid.pressure_head_m <= 11 + 1e-3
+    assert end.pressure_head_m >= 10 - 1e-3
+    assert capped.pipe_cost >= free.sizing.lower_bound - 1e-6
