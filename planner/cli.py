@@ -91,6 +91,19 @@ def profile(route, dems, spacing, cover, max_void, out):
                f"{prof.ground_m.max():.1f} m", err=True)
 
 
+def _findings_and_files(findings, written):
+    if findings:
+        click.echo("  findings:")
+        for f in findings:
+            click.echo(f"    {f.severity:<7} {f.message}")
+            if f.remedy:
+                click.echo(f"            -> {f.remedy}")
+    for path in written.values():
+        click.echo(f"  wrote {path}")
+    click.echo("  Planning aid only: confirm levels in the field; local codes and a licensed "
+               "engineer take precedence.")
+
+
 def _report(plan, written):
     from .units import LPS
 
@@ -135,16 +148,7 @@ def _report(plan, written):
         for f in plan.features:
             click.echo(f"    {f.kind.replace('_', ' '):<9} {f.chainage_m:>8,.0f} m  "
                        f"DN{f.size_mm:<4.0f} {f.rule}")
-    if plan.findings:
-        click.echo("  findings:")
-        for f in plan.findings:
-            click.echo(f"    {f.severity:<7} {f.message}")
-            if f.remedy:
-                click.echo(f"            -> {f.remedy}")
-    for name, path in written.items():
-        click.echo(f"  wrote {path}")
-    click.echo("  Planning aid only: confirm levels in the field; local codes and a licensed "
-               "engineer take precedence.")
+    _findings_and_files(plan.findings, written)
 
 
 def _report_network(plan, written):
@@ -170,16 +174,7 @@ def _report_network(plan, written):
         n_air = sum(f.kind == "air_valve" for f in lk.features)
         n_wash = sum(f.kind == "washout" for f in lk.features)
         click.echo(f"    {n_air} air valve(s), {n_wash} washout(s)")
-    if plan.findings:
-        click.echo("  findings:")
-        for f in plan.findings:
-            click.echo(f"    {f.severity:<7} {f.message}")
-            if f.remedy:
-                click.echo(f"            -> {f.remedy}")
-    for name, path in written.items():
-        click.echo(f"  wrote {path}")
-    click.echo("  Planning aid only: confirm levels in the field; local codes and a licensed "
-               "engineer take precedence.")
+    _findings_and_files(plan.findings, written)
 
 
 def _plan_and_write(scenario_path: Path, out: Path):

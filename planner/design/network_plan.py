@@ -33,10 +33,11 @@ from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, segment_f
 from ..hydraulics.network import LinkData, accumulate_flows, tree_energy
 from ..scenario import Scenario
 from ..units import G
-from .checks import Finding, check_line, check_outlet, check_surge, check_tank, check_yield
+from .checks import Finding, check_yield
 from .features import Feature, place_features
 from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line,
-                   _candidate_data, _cheapest_per_size, _split_points, _stretches, _wave_speeds)
+                   _candidate_data, _cheapest_per_size, _split_points, _stretches, _wave_speeds,
+                   line_findings)
 from .sizing import SizingProblem, SizingResult, best_single_size, solve_sizing, solve_whole_pieces
 from .tanks import place_tanks
 
@@ -338,30 +339,9 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
             pressure_head_m=float(e.pressure_head[remap[j]]), min_pressure_m=o.min_pressure_m,
             basis=o.basis, max_pressure_m=o.max_pressure_m if o.max_pressure_m is not None
             else cr.max_outlet_pressure_m) for o, kk, j in placed if kk == k)
-        static_check = e.static_pressure_head.copy()
-        rating_check = pt_rating.copy()
-        for prev, nxt in zip(surfaces[k][:-1], surfaces[k][1:]):
-            static_check[remap[nxt.index]] = prev.static_level - float(refined.pipe_m[remap[nxt.index]])
-            rating_check[remap[nxt.index]] = seg_rating[remap[nxt.index] - 1]
-        local = check_line(chainage=refined.chainage_m, pressure_head=e.pressure_head,
-                           static_pressure_head=static_check, velocity=e.velocity,
-                           flowing=e.flow > 0, rating_head=rating_check, criteria=cr,
-                           elevation=refined.pipe_m, temperature_c=cr.temperature_c,
-                           surface_index=tuple(surf_r))
-        for o in outs:
-            local += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m,
-                                o.max_pressure_m)
-        for t in tanks:
-            local += check_tank(t.name, t.chainage_m, t.arrival_hgl_m,
-                                t.water_level_m + cr.tank_inlet_head_m)
-        local += check_surge(stretches, cr)
-        for f in feats:
-            if f.kind == "air_valve" and e.pressure_head[f.index] < 0:
-                local.append(Finding("error", "air-valve-vacuum",
-                                     f"the air valve at chainage {f.chainage_m:,.0f} m sits where "
-                                     f"the pressure is {e.pressure_head[f.index]:.1f} m",
-                                     "lower the line there, or use a larger pipe upstream",
-                                     f.chainage_m, f.chainage_m))
+        surfaces_r = [FreeSurface(int(remap[f.index]), f.static_level, f.operating_level)
+                      for f in surfaces[k]]
+        local = line_findings(refined, e, seg_rating, surfaces_r, outs, tanks, stretches, feats, cr)
         findings += [Finding(f.severity, f.code, f"{names[k]}: {f.message}", f.remedy,
                              f.chainage_m, f.chainage_end_m) for f in local]
         findings += [Finding("note", "profile", f"{names[k]}: {n}") for n in profiles[k].notes]

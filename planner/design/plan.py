@@ -424,32 +424,8 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     volumes = [o.daily_volume_m3 for o in sc.outlets]
     findings = check_yield(total, sc.source.yield_m3s,
                            sum(volumes) if all(v is not None for v in volumes) else None)
-    # at a tank, the pipe arriving still carries the static head of the level upstream
-    static_check = energy.static_pressure_head.copy()
-    rating_check = pt_rating.copy()
-    for prev, f in zip(surfaces_r[:-1], surfaces_r[1:]):
-        static_check[f.index] = prev.static_level - float(refined.pipe_m[f.index])
-        rating_check[f.index] = seg_rating[f.index - 1]
-    findings += check_line(chainage=rch, pressure_head=energy.pressure_head,
-                           static_pressure_head=static_check,
-                           velocity=energy.velocity, flowing=energy.flow > 0,
-                           rating_head=rating_check, criteria=cr, elevation=refined.pipe_m,
-                           temperature_c=cr.temperature_c,
-                           surface_index=tuple(f.index for f in surfaces_r))
-    for o in outlets:
-        findings += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m,
-                                o.max_pressure_m)
-    for t in tanks:
-        findings += check_tank(t.name, t.chainage_m, t.arrival_hgl_m,
-                               t.water_level_m + cr.tank_inlet_head_m)
-    findings += check_surge(stretches, cr)
-    for f in features:
-        if f.kind == "air_valve" and energy.pressure_head[f.index] < 0:
-            findings.append(Finding(
-                "error", "air-valve-vacuum",
-                f"the air valve at chainage {f.chainage_m:,.0f} m sits where the pressure is "
-                f"{energy.pressure_head[f.index]:.1f} m: it would let air in and break the flow",
-                "lower the line there, or use a larger pipe upstream", f.chainage_m, f.chainage_m))
+    findings += line_findings(refined, energy, seg_rating, surfaces_r, outlets, tanks,
+                              stretches, features, cr)
     if design and not converged:
         findings.append(Finding(
             "warning", "sizing-recheck",
@@ -504,6 +480,42 @@ def _exact_energy(prof, refined, seg_opt, options, surfaces, placed, point_k, re
     req_r = np.maximum(required[seg], required[seg + 1])
     req_r[remap] = required
     return energy, remap, surfaces_r, req_r
+
+
+def line_findings(refined: Profile, energy: LineEnergy, seg_rating: NDArray, surfaces_r,
+                  outlets, tanks, stretches, features, cr) -> list[Finding]:
+    """Every check of one line (or one link of a tree), at every point.
+
+    ``surfaces_r`` are the free surfaces on the (refined) profile; its first may be a
+    junction.  At a tank, the pipe arriving still carries the static head of the level
+    upstream, against the rating of the pipe arriving.
+    """
+    pt_rating = np.minimum(np.append(seg_rating, seg_rating[-1]),
+                           np.insert(seg_rating, 0, seg_rating[0]))
+    static_check = energy.static_pressure_head.copy()
+    for prev, f in zip(surfaces_r[:-1], surfaces_r[1:]):
+        static_check[f.index] = prev.static_level - float(refined.pipe_m[f.index])
+        pt_rating[f.index] = seg_rating[f.index - 1]
+    out = check_line(chainage=refined.chainage_m, pressure_head=energy.pressure_head,
+                     static_pressure_head=static_check, velocity=energy.velocity,
+                     flowing=energy.flow > 0, rating_head=pt_rating, criteria=cr,
+                     elevation=refined.pipe_m, temperature_c=cr.temperature_c,
+                     surface_index=tuple(f.index for f in surfaces_r))
+    for o in outlets:
+        out += check_outlet(o.name, o.chainage_m, o.pressure_head_m, o.min_pressure_m,
+                            o.max_pressure_m)
+    for t in tanks:
+        out += check_tank(t.name, t.chainage_m, t.arrival_hgl_m,
+                          t.water_level_m + cr.tank_inlet_head_m)
+    out += check_surge(stretches, cr)
+    for f in features:
+        if f.kind == "air_valve" and energy.pressure_head[f.index] < 0:
+            out.append(Finding(
+                "error", "air-valve-vacuum",
+                f"the air valve at chainage {f.chainage_m:,.0f} m sits where the pressure is "
+                f"{energy.pressure_head[f.index]:.1f} m: it would let air in and break the flow",
+                "lower the line there, or use a larger pipe upstream", f.chainage_m, f.chainage_m))
+    return out
 
 
 def _tank_sites(sc, prof, options, rating_head, top, fixed, margin) -> list[TankSite]:
