@@ -45,18 +45,26 @@ def enumerate_best(p):
     return best
 
 
-@pytest.mark.parametrize("seed", range(12))
-def test_one_size_per_piece_equals_enumeration_and_lp_is_a_bound(seed):
-    p = small_problem(seed)
-    exhaustive = enumerate_best(p)
+def against_enumeration(p, exhaustive):
+    """The one-pipe-per-piece MILP equals enumeration; the LP bounds it. Returns (lp, milp)."""
     if not np.isfinite(exhaustive):
         with pytest.raises(DesignError):
             solve_sizing(p, whole="piece")
-        return
+        return None, None
     milp = solve_sizing(p, whole="piece", mip_rel_gap=0.0)
     assert milp.cost == pytest.approx(exhaustive, rel=1e-7)
     lp = solve_sizing(p)
     assert lp.cost <= milp.cost + 1e-7                  # the split-pipe optimum is a bound
+    assert lp.cost <= best_single_size(p)[0] + 1e-7
+    return lp, milp
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_one_size_per_piece_equals_enumeration_and_lp_is_a_bound(seed):
+    p = small_problem(seed)
+    lp, milp = against_enumeration(p, enumerate_best(p))
+    if lp is None:
+        return
     single, _ = best_single_size(p)
     assert lp.cost <= single + 1e-7 and milp.cost <= single + 1e-7
     tidy = solve_whole_pieces(p)
@@ -166,16 +174,8 @@ def enumerate_tree(p):
 @pytest.mark.parametrize("seed", range(8))
 def test_tree_sizing_equals_enumeration(seed):
     p = small_tree(seed)
-    exhaustive = enumerate_tree(p)
-    if not np.isfinite(exhaustive):
-        with pytest.raises(DesignError):
-            solve_sizing(p, whole="piece")
-        return
-    milp = solve_sizing(p, whole="piece", mip_rel_gap=0.0)
-    assert milp.cost == pytest.approx(exhaustive, rel=1e-7)
-    lp = solve_sizing(p)
-    assert lp.cost <= milp.cost + 1e-7
-    assert lp.cost <= best_single_size(p)[0] + 1e-7
+    lp, _ = against_enumeration(p, enumerate_tree(p))
+    assert lp is not None                               # every Y here has a design
     # the junction head is shared: both branches start where the main ends
     x = lp.lengths
     h_junction = p.start_energy[0] - sum((x[k] * p.unit_loss[k]).sum() for k in (0, 1))
