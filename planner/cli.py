@@ -155,9 +155,10 @@ def _report_network(plan, written):
     from .units import LPS
 
     click.echo(f"{plan.scenario.project.name}")
+    how = (f" ({plan.sizing.method}, {plan.sizing.gap * 100:.2g} % above the bound "
+           f"{plan.sizing.lower_bound:,.0f})" if plan.sizing is not None else " (pipes given)")
     click.echo(f"  {len(plan.links)} links, design flow {plan.total_flow_m3s / LPS:.2f} L/s, pipe "
-               f"cost {plan.pipe_cost:,.0f} ({plan.sizing.method}, "
-               f"{plan.sizing.gap * 100:.2g} % above the bound {plan.sizing.lower_bound:,.0f})")
+               f"cost {plan.pipe_cost:,.0f}{how}")
     for lk, flow in zip(plan.links, plan.link_flow_m3s):
         parent = plan.links[lk.parent].name if lk.parent >= 0 else "the source"
         sizes = ", ".join(dict.fromkeys(st.option.label for st in lk.stretches))

@@ -90,6 +90,7 @@ class Tank:
     name: str
     chainage_m: float
     water_above_ground_m: float = 1.0
+    link: str | None = None
 
 
 @dataclass(frozen=True)
@@ -97,6 +98,7 @@ class Fitting:
     name: str
     chainage_m: float
     k: float
+    link: str | None = None
 
 
 @dataclass(frozen=True)
@@ -205,8 +207,9 @@ TABLE_ARRAYS = {
                 "min_pressure_m": (_NUM, False),
                 "chainage_m": (_NUM, False), "location": (list, False), "kind": (str, False)},
     "break_pressure_tanks": {"name": (str, False), "chainage_m": (_NUM, True),
-                             "water_above_ground_m": (_NUM, False)},
-    "fittings": {"name": (str, False), "chainage_m": (_NUM, True), "k": (_NUM, True)},
+                             "water_above_ground_m": (_NUM, False), "link": (str, False)},
+    "fittings": {"name": (str, False), "chainage_m": (_NUM, True), "k": (_NUM, True),
+                 "link": (str, False)},
 }
 REQUIRED_SECTIONS = ("project", "route", "source")
 #: Default minimum residual pressure at an outlet [m]: Akvopedia "Public standpost"
@@ -333,12 +336,6 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                       join_tolerance_m=float(r.get("join_tolerance_m", 5.0)))
     _positive(problems, "route.join_tolerance_m", r.get("join_tolerance_m"))
     _positive(problems, "route.spacing_m", r.get("spacing_m"))
-    if route.network and (data.get("break_pressure_tanks") or data.get("fittings")):
-        problems.add("route.network", "engineer-placed tanks and fittings are not supported on a "
-                     "network yet; let [design] place the tanks")
-    if route.network and "pipe" in data:
-        problems.add("route.network", "a network is designed from catalogues: use [design], "
-                     "not [pipe]")
     if "file" in r and not route.file.suffix.lower() == ".csv" and terrain is None:
         problems.add("terrain.dem", f"needed for the route {r['file']!r}: only a CSV survey "
                      "carries its own elevations")
@@ -464,16 +461,25 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                   tk.get("water_above_ground_m"), allow_zero=True)
         tanks.append(Tank(name=tk.get("name", f"break-pressure tank {i}"),
                           chainage_m=float(tk.get("chainage_m", 0.0)),
-                          water_above_ground_m=float(tk.get("water_above_ground_m", 1.0))))
+                          water_above_ground_m=float(tk.get("water_above_ground_m", 1.0)),
+                          link=tk.get("link")))
     chain = [tk.chainage_m for tk in tanks]
-    if chain != sorted(chain) or len(set(chain)) != len(chain):
+    if not route.network and (chain != sorted(chain) or len(set(chain)) != len(chain)):
         problems.add("break_pressure_tanks", "list the tanks in increasing chainage, one per place")
     fittings = []
     for i, f in enumerate(arrays["fittings"], start=1):
         _positive(problems, f"fittings[{i}].k", f.get("k"), allow_zero=True)
         _positive(problems, f"fittings[{i}].chainage_m", f.get("chainage_m"), allow_zero=True)
         fittings.append(Fitting(name=f.get("name", f"fitting {i}"),
-                                chainage_m=float(f.get("chainage_m", 0.0)), k=float(f.get("k", 0.0))))
+                                chainage_m=float(f.get("chainage_m", 0.0)), k=float(f.get("k", 0.0)),
+                                link=f.get("link")))
+    if route.network:
+        for what, items in (("break_pressure_tanks", arrays["break_pressure_tanks"]),
+                            ("fittings", arrays["fittings"]), ("outlets", arrays["outlets"])):
+            for i, item in enumerate(items, start=1):
+                if "chainage_m" in item and "link" not in item:
+                    problems.add(f"{what}[{i}]", "on a network, a chainage needs the link "
+                                 "(the name of the drawn line) it is along")
 
     if problems:
         listing = "\n  - ".join(problems)

@@ -36,10 +36,10 @@ from ..units import G
 from .checks import Finding, check_yield
 from .features import Feature, place_features
 from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line,
-                   _candidate_data, _cheapest_per_size, _split_points, _stretches, _wave_speeds,
-                   line_findings)
+                   _candidate_data, _cheapest_per_size, _given_pipe, _split_points, _stretches,
+                   _wave_speeds, line_findings)
 from .sizing import SizingProblem, SizingResult, best_single_size, solve_sizing, solve_whole_pieces
-from .tanks import place_tanks
+from .tanks import TankSite, place_tanks
 
 
 @dataclass(frozen=True)
@@ -102,27 +102,31 @@ def _link_name(net_link, k):
     return net_link.name or f"link {k + 1}"
 
 
+def _on_link(net, profiles, names, line, chainage, key, tol):
+    """(link, point index) of a chainage along a drawn line (split into links at tees)."""
+    hits = [k for k, lk in enumerate(net.links) if lk.name == line or names[k] == line]
+    if not hits:
+        known = ", ".join(sorted({lk.name for lk in net.links if lk.name}))
+        raise InputError(f"{key}.link = {line!r}: no line of that name; lines: {known}")
+    hits.sort(key=lambda k: net.links[k].offset_m)
+    k = next((k for k in hits if chainage <= net.links[k].offset_m + profiles[k].length_m + 1e-6),
+             hits[-1])
+    local = chainage - net.links[k].offset_m
+    if local > profiles[k].length_m + tol:
+        raise InputError(f"{key}.chainage_m = {chainage:,.0f} m is beyond the end of the line "
+                         f"{line!r}")
+    return k, profiles[k].index_at(min(max(local, 0.0), profiles[k].length_m))
+
+
 def _place_outlets(sc, net, profiles, names, tol):
     """(outlet, link, point index) for every outlet: by link name and chainage, or location."""
     placed = []
     for i, o in enumerate(sc.outlets, start=1):
         key = f"outlets[{i}]"
         if o.link is not None:
-            # a drawn line may have been split at tees: find the piece holding the chainage
-            hits = [k for k, lk in enumerate(net.links) if lk.name == o.link or names[k] == o.link]
-            if not hits:
-                known = ", ".join(sorted({lk.name for lk in net.links if lk.name}))
-                raise InputError(f"{key}.link = {o.link!r}: no line of that name; lines: {known}")
             if o.chainage_m is None:
                 raise InputError(f"{key}: give chainage_m along the line {o.link!r}")
-            hits.sort(key=lambda k: net.links[k].offset_m)
-            k = next((k for k in hits if o.chainage_m <= net.links[k].offset_m
-                      + profiles[k].length_m + 1e-6), hits[-1])
-            local = o.chainage_m - net.links[k].offset_m
-            if local > profiles[k].length_m + tol:
-                raise InputError(f"{key}.chainage_m = {o.chainage_m:,.0f} m is beyond the end of "
-                                 f"the line {o.link!r}")
-            placed.append((o, k, profiles[k].index_at(min(local, profiles[k].length_m))))
+            placed.append((o, *_on_link(net, profiles, names, o.link, o.chainage_m, key, tol)))
             continue
         if o.location is None:
             raise InputError(f"{key}: on a network, give location = [lon, lat], or link and chainage_m")
@@ -146,8 +150,7 @@ def _place_outlets(sc, net, profiles, names, tol):
 def plan_network(scenario: Scenario) -> NetworkPlan:
     """Design a branched system (see the module docstring)."""
     sc, cr = scenario, scenario.criteria
-    if sc.design is None:
-        raise InputError("a network needs [design]")
+    design = sc.design is not None
     net = build_tree(read_lines(sc.route.file), source=sc.source.location,
                      snap_tolerance_m=sc.route.join_tolerance_m)
     links = net.links
@@ -172,6 +175,19 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
     low = sc.source.low_level_m if sc.source.low_level_m is not None else g0 + sc.source.low_above_ground_m
 
     placed = _place_outlets(sc, net, profiles, names, cr.snap_tolerance_m)
+    fixed = [[] for _ in range(L)]
+    for i, tk in enumerate(sc.tanks, start=1):
+        k, j = _on_link(net, profiles, names, tk.link, tk.chainage_m,
+                        f"break_pressure_tanks[{i}]", cr.snap_tolerance_m)
+        if j <= 0 or j >= profiles[k].n - 1:
+            raise InputError(f"break_pressure_tanks[{i}]: a tank must lie inside a link, not at "
+                             "a junction or an end")
+        fixed[k].append((j, float(profiles[k].ground_m[j] + tk.water_above_ground_m)))
+    point_k = [np.zeros(p.n) for p in profiles]
+    for i, f in enumerate(sc.fittings, start=1):
+        k, j = _on_link(net, profiles, names, f.link, f.chainage_m, f"fittings[{i}]",
+                        cr.snap_tolerance_m)
+        point_k[k][j] += f.k
     own = [sum(o.flow_m3s for o, k, _ in placed if k == kk) for kk in range(L)]
     total_in = accumulate_flows(parents, own)
     children = [[c for c in range(L) if parents[c] == k] for k in range(L)]
@@ -186,8 +202,11 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
     rho = water.density(cr.temperature_c)
     nu = water.kinematic_viscosity(cr.temperature_c)
     d = sc.design
-    options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
-                           max_od_mm=d.max_size_mm)
+    if design:
+        options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
+                               max_od_mm=d.max_size_mm)
+    else:
+        options = [_given_pipe(sc)]
     try:
         factors = np.array([temperature_factor(o.material, cr.wall_temperature_c) for o in options])
     except ValueError as exc:
@@ -199,16 +218,23 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
     # -- tanks on every branch (the static level runs on through junctions), then candidates
     limit = float(rating_head.max())
     reason = f"the highest class available, {options[int(rating_head.argmax())].label}"
-    if d.max_static_pressure_m is not None and d.max_static_pressure_m < limit:
+    if design and d.max_static_pressure_m is not None and d.max_static_pressure_m < limit:
         limit, reason = d.max_static_pressure_m, "design.max_static_pressure_m"
+    auto = design and d.auto_tanks
     margin = 0.0
     for _ in range(12):
         sites, start_level, allowed, surfaces, since, gaps = [], [], [], [], [], []
         for k, prof in enumerate(profiles):
             lvl = top if parents[k] < 0 else surfaces[parents[k]][-1].static_level
-            s_k = place_tanks(prof.chainage_m, prof.ground_m, prof.pipe_m, source_level=lvl,
-                              limit_head=limit - margin, water_depth=d.tank_water_depth_m,
-                              limit_reason=reason + (f", less {margin:.0f} m for surge" if margin else ""))
+            if auto:
+                s_k = place_tanks(prof.chainage_m, prof.ground_m, prof.pipe_m, source_level=lvl,
+                                  limit_head=limit - margin, water_depth=d.tank_water_depth_m,
+                                  fixed=fixed[k],
+                                  limit_reason=reason + (f", less {margin:.0f} m for surge"
+                                                         if margin else ""))
+            else:
+                s_k = [TankSite(j, level, "placed by the engineer", fixed=True)
+                       for j, level in sorted(fixed[k])]
             sites.append(s_k)
             start_level.append(lvl)
             surf = [FreeSurface(0, lvl, np.nan)] + [FreeSurface(s.index, s.level, s.level) for s in s_k]
@@ -235,10 +261,10 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
             short = ~allowed[-1].any(axis=1) & (ok_static & slow).any(axis=1)
             gaps.append(-np.max(np.where(ok_static & slow, fits, -np.inf), axis=1)[short])
         shortfall = max((float(g.max()) for g in gaps if g.size), default=0.0)
-        if shortfall <= 0:
+        if shortfall <= 0 or not auto:
             break
         margin += shortfall + 1.0
-    for k, a in enumerate(allowed):
+    for k, a in enumerate(allowed if design else []):
         none = ~a.any(axis=1)
         if none.any():
             i = int(np.flatnonzero(none)[0])
@@ -261,8 +287,17 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
                 req[j] = max(req[j], o.min_pressure_m)
         required.append(req)
     offsets = np.concatenate([[0], np.cumsum([p.n for p in profiles])])
+    if not design:
+        built = [(prof, np.zeros(prof.n - 1, dtype=np.int64)) for prof in profiles]
+        energies, remaps, req_r = _tree_exact(profiles, built, parents, surfaces, placed, children,
+                                              total_in, options, required, top, low, nu, cr,
+                                              point_k)
+        sizing, single, converged = None, np.inf, True
+        return _results(sc, net, names, parents, children, profiles, built, energies, remaps,
+                        req_r, sites, surfaces, placed, options, rating_head, wave, sizing, single,
+                        converged, top, low, rho, nu, total_in)
     splits_local = [_split_points(prof, reaches_local[k], [(o, j) for o, kk, j in placed if kk == k],
-                                  np.zeros(prof.n), d.split_spacing_m)
+                                  point_k[k], d.split_spacing_m)
                     for k, prof in enumerate(profiles)]
     allowed_k = [_cheapest_per_size(np.logical_and.reduceat(a, sp[:-1], axis=0), options)
                  for a, sp in zip(allowed, splits_local)]
@@ -280,14 +315,15 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
         for _ in range(12):
             problem, piece_rows = _tree_problem(profiles, parents, surfaces, reaches_local,
                                                 splits_local, allowed_k, cand, hv_k, required,
-                                                extra, offsets, options, top, low, cr, caps)
+                                                extra, offsets, options, top, low, cr, caps,
+                                                point_k)
             sizing = (solve_sizing(problem, whole="reach") if stage == "reach" else
                       solve_whole_pieces(problem) if stage == "pieces" else solve_sizing(problem))
             built = [_build_line(prof, sp, sizing.lengths[rows], options)
                      for prof, sp, rows in zip(profiles, splits_local, piece_rows)]
             energies, remaps, req_r = _tree_exact(profiles, built, parents, surfaces, placed,
                                                   children, total_in, options, required, top,
-                                                  low, nu, cr)
+                                                  low, nu, cr, point_k)
             converged = True
             for k in range(L):
                 short = req_r[k] - energies[k].pressure_head
@@ -304,7 +340,17 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
             if converged:
                 break
     single = best_single_size(problem)[0]
+    return _results(sc, net, names, parents, children, profiles, built, energies, remaps, req_r,
+                    sites, surfaces, placed, options, rating_head, wave, sizing, single,
+                    converged, top, low, rho, nu, total_in)
 
+
+def _results(sc, net, names, parents, children, profiles, built, energies, remaps, req_r, sites,
+             surfaces, placed, options, rating_head, wave, sizing, single, converged, top, low,
+             rho, nu, total_in) -> NetworkPlan:
+    """Per-link results, checks and the NetworkPlan (design or check mode)."""
+    cr = sc.criteria
+    L = len(profiles)
     # -- results per link
     link_plans, findings = [], []
     total = float(sum(o.flow_m3s for o in sc.outlets))
@@ -322,7 +368,8 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
         reaches_r = list(zip(surf_r, surf_r[1:] + [refined.n - 1]))
         stretches = _stretches(refined, e, seg_opt, options, seg_rating, reaches_r=reaches_r,
                                wave=wave, cr=cr)
-        od = np.array([options[j].outside_diameter * 1e3 for j in np.append(seg_opt, seg_opt[-1])])
+        od = np.array([(o.outside_diameter if np.isfinite(o.outside_diameter) else o.inside_diameter)
+                       * 1e3 for o in (options[j] for j in np.append(seg_opt, seg_opt[-1]))])
         feats = tuple(place_features(refined.chainage_m, refined.pipe_m, e.hgl, od, reaches_r,
                                      prominence_m=cr.feature_prominence_m,
                                      grade_change=cr.grade_break, grade_window_m=cr.grade_window_m,
@@ -361,22 +408,24 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
         findings.append(Finding("warning", "sizing-recheck", "the sized tree still falls short of "
                                 "a limit after 12 rechecks (see the other findings)",
                                 "use a finer design.split_spacing_m"))
-    findings.append(Finding(
-        "note", "sizing", f"sizes and classes chosen by the {sizing.method} at least cost "
-        f"({sizing.cost:,.0f}, optimality gap {sizing.gap * 100:.2g} %); "
-        + (f"the cheapest single size would cost {single:,.0f}" if np.isfinite(single)
-           else "no single size meets every limit")))
+    if sizing is not None:
+        findings.append(Finding(
+            "note", "sizing", f"sizes and classes chosen by the {sizing.method} at least cost "
+            f"({sizing.cost:,.0f}, optimality gap {sizing.gap * 100:.2g} %); "
+            + (f"the cheapest single size would cost {single:,.0f}" if np.isfinite(single)
+               else "no single size meets every limit")))
     findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity], f.message))
     return NetworkPlan(scenario=sc, network=net, links=tuple(link_plans),
                        source_top_level_m=float(top), source_low_level_m=float(low),
                        total_flow_m3s=total, density=float(rho), kinematic_viscosity=float(nu),
                        findings=tuple(findings), sizing=sizing,
+                       mode="design" if sizing is not None else "check",
                        single_size_cost=single if np.isfinite(single) else None,
                        link_flow_m3s=tuple(float(x) for x in total_in))
 
 
 def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allowed_k, cand,
-                  hv_k, required, extra, offsets, options, top, low, cr, caps):
+                  hv_k, required, extra, offsets, options, top, low, cr, caps, point_k):
     """The split-pipe programme of the whole tree: links numbered one after another."""
     J = len(options)
     split_g, allowed_rows, loss_rows, rows_of = [], [], [], []
@@ -400,7 +449,7 @@ def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allo
         min_e.append(prof.pipe_m + required[k] + extra[k] + hv_pt + 1e-3)
         max_e.append(prof.pipe_m + caps[k])
         pos.append(prof.slope_length_m)
-        fit.append(np.zeros(prof.n))
+        fit.append(point_k[k] * hv_pt)
         surf = surfaces[k]
         for r, (a, b) in enumerate(reaches_local[k]):
             reaches.append((int(a + offsets[k]), int(b + offsets[k])))
@@ -410,7 +459,7 @@ def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allo
             else:
                 level = low if (r == 0 and parents[k] < 0) else surf[r].operating_level
                 parent_pt.append(-1)
-                start.append(level - cr.entrance_k * hv_pt[a])
+                start.append(level - (cr.entrance_k + point_k[k][a]) * hv_pt[a])
             if r + 1 < len(surf):
                 arrival.append(surf[r + 1].static_level + cr.tank_inlet_head_m + hv_seg[b - 1] + 1e-3)
             else:
@@ -429,7 +478,7 @@ def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allo
 
 
 def _tree_exact(profiles, built, parents, surfaces, placed, children, total_in, options,
-                required, top, low, nu, cr):
+                required, top, low, nu, cr, point_k):
     """Energy lines of the built tree, exactly, and the pressure required at every point."""
     datas, remaps, reqs = [], [], []
     for k, (prof, (refined, seg_opt)) in enumerate(zip(profiles, built)):
@@ -447,8 +496,10 @@ def _tree_exact(profiles, built, parents, surfaces, placed, children, total_in, 
             method=cr.friction,
             roughness=np.array([options[j].roughness for j in seg_opt]) if cr.friction == "colebrook" else None,
             c_factor=np.array([options[j].c_factor for j in seg_opt]) if cr.friction == "hazen-williams" else None)
+        k_r = np.zeros(refined.n)
+        k_r[remap] = point_k[k]
         datas.append(LinkData(refined.slope_length_m, refined.pipe_m, flows, pipe,
-                              parent=parents[k], tanks=tanks))
+                              parent=parents[k], tanks=tanks, point_k=k_r))
         seg = np.clip(np.searchsorted(ch, rch, side="right") - 1, 0, ch.size - 2)
         req = np.maximum(required[k][seg], required[k][seg + 1])
         req[remap] = required[k]

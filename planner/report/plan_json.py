@@ -201,6 +201,12 @@ def network_to_dict(plan, link_plans, drawings) -> dict:
                       "starts_at_drawn_chainage_m": _f(net_link.offset_m, 2),
                       "design_flow_lps": _f(flow / LPS, 4), **{k: d[k] for k in per_link_keys}})
     s = plan.sizing
+    sizing = None if s is None else {
+        "method": s.method, "status": s.status, "objective": _f(s.cost, 2),
+        "optimality_gap": s.gap, "lower_bound": _f(s.lower_bound, 2),
+        "variables": s.variables, "constraints": s.constraints,
+        "cheapest_single_size_cost": _f(plan.single_size_cost, 2)
+        if plan.single_size_cost is not None else None}
     return {
         "schema": NETWORK_SCHEMA, "mode": plan.mode,
         "tool": first["tool"], "project": first["project"], "inputs": first["inputs"],
@@ -217,11 +223,7 @@ def network_to_dict(plan, link_plans, drawings) -> dict:
         "root_node": plan.network.root,
         "links": links,
         "drawings": drawings,
-        "sizing": {"method": s.method, "status": s.status, "objective": _f(s.cost, 2),
-                   "optimality_gap": s.gap, "lower_bound": _f(s.lower_bound, 2),
-                   "variables": s.variables, "constraints": s.constraints,
-                   "cheapest_single_size_cost": _f(plan.single_size_cost, 2)
-                   if plan.single_size_cost is not None else None},
+        "sizing": sizing,
         "findings": [{"severity": f.severity, "code": f.code, "chainage_m": _f(f.chainage_m, 2),
                       "chainage_end_m": _f(f.chainage_end_m, 2), "message": f.message,
                       "remedy": f.remedy} for f in plan.findings],

@@ -104,3 +104,37 @@ def test_a_branch_without_outlet_is_reported(demo_folder, tmp_path):
     plan = plan_network(load_scenario(tmp_path / "s.toml"))
     dangling = [f for f in plan.findings if f.code == "dangling-end"]
     assert len(dangling) == 1 and dangling[0].message.startswith("Tamsel school branch ends")
+
+
+def test_check_mode_with_given_pipe_tanks_and_fittings(demo_folder, tmp_path):
+    import re
+    import shutil
+
+    text = (demo_folder / "scenario_network.toml").read_text()
+    text = re.sub(r"\[design\].*?max_static_pressure_m = 100\n",
+                  '[pipe]\nmaterial = "PE100"\nlabel = "PE100 90 SDR11"\ninside_diameter_mm = 73.6\n'
+                  "roughness_mm = 0.007\nrating_bar = 16\n\n"
+                  '[[break_pressure_tanks]]\nlink = "main"\nchainage_m = 2000\n\n'
+                  '[[break_pressure_tanks]]\nlink = "main"\nchainage_m = 3400\n', text, flags=re.S)
+    for name in ("dem.tif", "network.geojson"):
+        shutil.copy(demo_folder / name, tmp_path / name)
+    (tmp_path / "a.toml").write_text(text)
+    (tmp_path / "b.toml").write_text(text + '\n[[fittings]]\nlink = "Tamsel school branch"\n'
+                                            'chainage_m = 200\nk = 10\n')
+    a = plan_network(load_scenario(tmp_path / "a.toml"))
+    b = plan_network(load_scenario(tmp_path / "b.toml"))
+    assert a.mode == "check" and a.sizing is None
+    tanks = [t for lk in a.links for t in lk.tanks]
+    assert [t.rule for t in tanks] == ["placed by the engineer"] * 2
+    # the fitting takes K V^2/2g out of the school branch's energy line, nothing elsewhere
+    school_a = next(lk for lk in a.links if lk.name == "Tamsel school branch")
+    school_b = next(lk for lk in b.links if lk.name == "Tamsel school branch")
+    v = school_b.energy.velocity[school_b.profile.index_at(200)]
+    drop = school_a.energy.energy[-1] - school_b.energy.energy[-1]
+    assert drop == pytest.approx(10 * v**2 / (2 * G), rel=1e-6)
+    main_a = next(lk for lk in a.links if lk.parent < 0)
+    main_b = next(lk for lk in b.links if lk.parent < 0)
+    assert main_a.energy.energy[-1] == pytest.approx(main_b.energy.energy[-1])
+    res = CliRunner().invoke(main, ["plan", str(tmp_path / "b.toml"), "--out", str(tmp_path / "o")])
+    assert res.exit_code in (0, 2), res.output
+    assert json.loads((tmp_path / "o" / "plan.json").read_text())["mode"] == "check"
