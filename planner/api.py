@@ -65,6 +65,18 @@ def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
     }
     if np.all(np.isfinite(plan_.profile.lat)):
         written["map.html"] = write_map(plan_, out / "map.html", terrain=terrain)
+    written.update(_deliverables([plan_], out, junctions=0))
+    return written
+
+
+def _deliverables(plans, out: Path, *, junctions: int) -> dict[str, Path]:
+    """Bill of quantities and GIS layers."""
+    from .report.gis import write_layers
+    from .report.quantities import bill, write_bill
+
+    written = write_bill(bill(plans, junctions=junctions), out)
+    if all(np.all(np.isfinite(p.profile.x)) for p in plans):
+        written.update(write_layers(plans, out))
     return written
 
 
@@ -109,4 +121,7 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
     written["map.html"] = write_map(link_plans, out / "map.html",
                                     terrain=_terrain_window(link_plans),
                                     title=plan_.scenario.project.name)
+    junctions = sum(1 for k in range(len(plan_.links))
+                    if sum(lk.parent == k for lk in plan_.links) >= 1)
+    written.update(_deliverables(link_plans, out, junctions=junctions))
     return written

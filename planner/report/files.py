@@ -9,14 +9,15 @@ from pathlib import Path
 
 
 @contextmanager
-def atomic_path(target: str | Path):
+def atomic_path(target: str | Path, *, suffix: str = ".part"):
     """Yield a temporary path beside ``target``; move it into place on success.
 
     On any exception the temporary file is removed and ``target`` is untouched.
+    ``suffix`` lets libraries that choose a format by file name see the right one.
     """
     target = Path(target)
     target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=target.parent)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=suffix, dir=target.parent)
     os.close(fd)
     umask = os.umask(0)
     os.umask(umask)
