@@ -63,10 +63,20 @@ def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
         "profile.csv": write_profile_csv(plan_.profile, out / "profile.csv"),
         "profile.png": write_profile_png(plan_, out / "profile.png"),
     }
+    written.update(_sheets(plan_, out, "profile"))
     if np.all(np.isfinite(plan_.profile.lat)):
         written["map.html"] = write_map(plan_, out / "map.html", terrain=terrain)
     written.update(_deliverables([plan_], out, junctions=0))
     return written
+
+
+def _sheets(plan_, out: Path, stem: str) -> dict[str, Path]:
+    """The permit drawing sheets (PDF and SVG) of a line."""
+    from .report.sheets import write_sheets
+
+    d = plan_.scenario.drawing
+    return write_sheets(plan_, out, stem=stem, sheet=d.sheet, km_per_sheet=d.km_per_sheet,
+                        revision=d.revision, date=d.date)
 
 
 def _deliverables(plans, out: Path, *, junctions: int) -> dict[str, Path]:
@@ -116,6 +126,7 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
         slug = re.sub(r"[^a-z0-9]+", "-", last.lower()).strip("-") or f"path-{k}"
         name = f"profile_{slug}.png"
         written[name] = write_profile_png(path_plan, out / name)
+        written.update(_sheets(path_plan, out, f"profile_{slug}"))
         drawings.append({"file": name, "links": plan_.path(k), "to": last})
     written["plan.json"] = write_network_json(plan_, link_plans, drawings, out / "plan.json")
     written["map.html"] = write_map(link_plans, out / "map.html",

@@ -150,6 +150,16 @@ class Design:
 
 
 @dataclass(frozen=True)
+class Drawing:
+    """How the profile is drawn on sheets for a permit file."""
+
+    sheet: str = "A3"
+    km_per_sheet: float = 2.0
+    revision: str = "A"
+    date: str | None = None
+
+
+@dataclass(frozen=True)
 class Scenario:
     path: Path
     project: Project
@@ -162,6 +172,7 @@ class Scenario:
     fittings: tuple[Fitting, ...] = field(default=())
     criteria: Criteria = field(default_factory=Criteria)
     design: Design | None = None
+    drawing: Drawing = field(default_factory=Drawing)
 
 
 # ---------------------------------------------------------------------------
@@ -194,6 +205,8 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
                  "grade_break": (_NUM, False), "grade_window_m": (_NUM, False),
                  "air_valve_spacing_m": (_NUM, False), "long_ascent_m": (_NUM, False),
                  "max_outlet_pressure_m": (_NUM, False)},
+    "drawing": {"sheet": (str, False), "km_per_sheet": (_NUM, False), "revision": (str, False),
+                "date": (str, False)},
     "design": {"catalogues": (list, False), "materials": (list, False),
                "min_size_mm": (_NUM, False), "max_size_mm": (_NUM, False),
                "one_size_per_reach": (bool, False), "auto_tanks": (bool, False),
@@ -481,6 +494,13 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                     problems.add(f"{what}[{i}]", "on a network, a chainage needs the link "
                                  "(the name of the drawn line) it is along")
 
+    dr = sec["drawing"]
+    from .report.sheets import SHEETS
+    if dr.get("sheet", "A3") not in SHEETS:
+        problems.add("drawing.sheet", f"expected one of {', '.join(SHEETS)}, got {dr['sheet']!r}")
+    _positive(problems, "drawing.km_per_sheet", dr.get("km_per_sheet"))
+    drawing = Drawing(sheet=dr.get("sheet", "A3"), km_per_sheet=float(dr.get("km_per_sheet", 2.0)),
+                      revision=dr.get("revision", "A"), date=dr.get("date"))
     if problems:
         listing = "\n  - ".join(problems)
         raise InputError(f"{path}: {len(problems)} problem(s) in the scenario:\n  - {listing}")
@@ -489,7 +509,8 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
         path=path, project=Project(name=p["name"], reference=p.get("reference", ""),
                                    engineer=p.get("engineer", ""), notes=p.get("notes", "")),
         terrain=terrain, route=route, source=source, pipe=pipe, outlets=tuple(outlets),
-        tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria, design=design)
+        tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria, design=design,
+        drawing=drawing)
 
 
 #: Keys of each demand kind: key -> (required, default).

@@ -69,3 +69,22 @@ def test_geopackage_layers_crs_and_attributes(out):
     assert len(gpd.read_file(out / "design.gpkg", layer="features")) == len(features)
     gj = gpd.read_file(out / "outlets.geojson")
     assert gj.crs.to_epsg() == 4326 and len(gj) >= 2
+
+
+def test_permit_sheets_pdf_pages_and_svg(out):
+    import re
+    import xml.etree.ElementTree as ET
+
+    plan = json.loads((out / "plan.json").read_text())
+    stems = ["profile"] if plan["schema"] != "gravplan.network/1" else \
+        [d["file"][:-4] for d in plan["drawings"]]
+    for stem in stems:
+        pdf = (out / f"{stem}.pdf").read_bytes()
+        pages = len(re.findall(rb"/Type\s*/Page[^s]", pdf))
+        svgs = sorted(out.glob(f"{stem}_sheet*.svg"))
+        assert pages == len(svgs) >= 2                  # 2 km a sheet on lines of 4-6 km
+        for svg in svgs:
+            root = ET.parse(svg).getroot()
+            texts = [t for t in root.iter() if t.tag.endswith("text")]
+            words = " ".join("".join(t.itertext()) for t in texts)
+            assert "sheet" in words and "Planning aid only" in words   # title block, notes

@@ -58,29 +58,49 @@ def _class_band(ax, plan: Plan, km, base, top):
 
 
 def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
-    """Draw the profile; return the matplotlib Figure."""
+    """Draw the whole line's profile on one figure; return the matplotlib Figure."""
     import matplotlib
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    prof, e = plan.profile, plan.energy
-    km = prof.chainage_m / 1000.0
     if ax is None:
         fig, (ax, axp) = plt.subplots(2, 1, figsize=figsize, sharex=True, layout="constrained",
                                       gridspec_kw={"height_ratios": [3, 1.4]})
         fig.get_layout_engine().set(rect=(0.0, 0.03, 1.0, 0.97))
     else:
         fig, axp = ax.figure, None
+    ve = draw_panels(ax, axp, plan)
+    prof = plan.profile
+    fig.text(0.01, 0.005,
+             f"Vertical exaggeration about {ve:,.0f}:1.  Elevations: {prof.elevation_source}; "
+             f"datum {prof.vertical_datum}; CRS {prof.crs}.  Planning aid only - confirm levels in "
+             "the field; local codes and a licensed engineer take precedence.",
+             fontsize=7, color="#333333")
+    return fig
 
-    base = float(np.nanmin(prof.pipe_m)) - 20.0
+
+def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, *,
+                title: bool = True) -> float:
+    """Draw the elevation panel (and the pressure panel if ``axp``) over a chainage window.
+
+    Returns the vertical exaggeration of the elevation panel as drawn [-].
+    """
+    prof, e = plan.profile, plan.energy
+    km = prof.chainage_m / 1000.0
+    lo, hi = window if window is not None else (0.0, prof.length_m)
+    inside = (prof.chainage_m >= lo - 1e-6) & (prof.chainage_m <= hi + 1e-6)
+
+    def in_window(c):
+        return lo - 1e-6 <= c <= hi + 1e-6
+    base = float(np.nanmin(prof.pipe_m[inside])) - 20.0
     ax.fill_between(km, prof.ground_m, base, color="#d9cbb0", edgecolor="none", label="ground")
     ax.plot(km, prof.ground_m, color="#6b5a3e", lw=1.0)
     ax.plot(km, prof.pipe_m, color="black", lw=1.6, label=f"pipe ({prof.cover_m:g} m cover)")
     for n, (a, b) in enumerate(stretches(prof.filled)):
-        lo, hi = km[max(a - 1, 0)], km[min(b + 1, km.size - 1)]
+        v0, v1 = km[max(a - 1, 0)], km[min(b + 1, km.size - 1)]
         for axis in (ax, axp) if axp is not None else (ax,):
-            axis.axvspan(lo, hi, facecolor="none", edgecolor="#b00000", hatch="///", lw=0.0,
+            axis.axvspan(v0, v1, facecolor="none", edgecolor="#b00000", hatch="///", lw=0.0,
                          label="DEM void, ground bridged" if n == 0 and axis is ax else None)
     first = True
     for x, y, static in _hgl_segments(plan):
@@ -89,19 +109,24 @@ def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
         ax.plot(x / 1000.0, y, color="#c0392b", lw=1.8, ls="-",
                 label="hydraulic grade line (design flow)" if first else None)
         first = False
-    ax.plot([0], [plan.source_top_level_m], marker="v", ms=10, color="#1f4e9c", ls="none",
-            label=plan.scenario.source.name)
+    if in_window(0.0):
+        ax.plot([0], [plan.source_top_level_m], marker="v", ms=10, color="#1f4e9c", ls="none",
+                label=plan.scenario.source.name)
     for t in plan.tanks:
+        if not in_window(t.chainage_m):
+            continue
         c = t.chainage_m / 1000.0
         ax.plot([c], [t.water_level_m], marker="s", ms=9, mfc="white", mec="black", ls="none")
         ax.annotate(f"{t.name}\nch {t.chainage_m:,.0f} m, WL {t.water_level_m:.1f} m", (c, t.water_level_m),
                     xytext=(6, 14), textcoords="offset points", fontsize=8,
                     bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.8))
     for o in plan.outlets:
+        if not in_window(o.chainage_m):
+            continue
         c = o.chainage_m / 1000.0
         z = prof.pipe_m[o.index]
         ax.plot([c], [z], marker="o", ms=8, mfc="#2e8b57", mec="black", ls="none")
-        near_end = o.chainage_m > 0.85 * prof.length_m
+        near_end = o.chainage_m > lo + 0.85 * (hi - lo)
         ax.annotate(f"{o.name}\n{o.flow_m3s * 1e3:.2f} L/s, {o.pressure_head_m:.1f} m",
                     (c, z), xytext=(-8, 12) if near_end else (8, -34), textcoords="offset points",
                     fontsize=8, ha="right" if near_end else "left",
@@ -109,23 +134,27 @@ def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
     marks = {"air_valve": ("^", "white", "air valve"), "washout": ("v", "#555555", "washout")}
     shown = set()
     for f in plan.features:
+        if not in_window(f.chainage_m):
+            continue
         marker, colour, label = marks.get(f.kind, ("x", "black", f.kind))
         ax.plot([f.chainage_m / 1000.0], [f.elevation_m], marker=marker, ms=7, mfc=colour,
                 mec="black", ls="none", label=None if f.kind in shown else label)
         shown.add(f.kind)
-    top = max(plan.source_top_level_m, float(np.nanmax(e.hgl))) + 15.0
+    top = max(float(np.nanmax(e.static_head[inside])), float(np.nanmax(e.hgl[inside]))) + 15.0
     ax.set_ylim(base, top)
     _class_band(ax, plan, km, base, top)
     ax.set_ylabel("elevation [m]")
     ax.grid(True, color="#cccccc", lw=0.5)
     handles, labels = ax.get_legend_handles_labels()
     ax.legend(handles, labels, loc="lower left", fontsize=8, framealpha=0.9)
-    ax.set_xlim(-0.01 * km[-1], 1.01 * km[-1])
+    pad = 0.01 * (hi - lo) / 1000.0
+    ax.set_xlim(lo / 1000.0 - pad, hi / 1000.0 + pad)
     sc = plan.scenario
-    pipes = (sc.pipe.label or sc.pipe.material) if sc.pipe is not None else \
-        f"{len({st.option.label for st in plan.stretches})} pipe sizes/classes, cost {plan.pipe_cost:,.0f}"
-    ax.set_title(f"{sc.project.name}\n{pipes}, design flow {plan.total_flow_m3s * 1e3:.2f} L/s",
-                 fontsize=11, loc="left")
+    if title:
+        pipes = (sc.pipe.label or sc.pipe.material) if sc.pipe is not None else \
+            f"{len({st.option.label for st in plan.stretches})} pipe sizes/classes, cost {plan.pipe_cost:,.0f}"
+        ax.set_title(f"{sc.project.name}\n{pipes}, design flow {plan.total_flow_m3s * 1e3:.2f} L/s",
+                     fontsize=11, loc="left")
 
     if axp is not None:
         axp.plot(km, e.pressure_head, color="#c0392b", lw=1.5, label="pressure head, design flow")
@@ -139,16 +168,11 @@ def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
         axp.grid(True, color="#cccccc", lw=0.5)
         axp.legend(loc="upper left", fontsize=8, framealpha=0.9)
 
+    fig = ax.figure
     fig.canvas.draw()
     bbox = ax.get_window_extent().transformed(fig.dpi_scale_trans.inverted())
     (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
-    ve = ((x1 - x0) * 1000.0 / bbox.width) / ((y1 - y0) / bbox.height)
-    fig.text(0.01, 0.005,
-             f"Vertical exaggeration about {ve:,.0f}:1.  Elevations: {prof.elevation_source}; "
-             f"datum {prof.vertical_datum}; CRS {prof.crs}.  Planning aid only - confirm levels in "
-             "the field; local codes and a licensed engineer take precedence.",
-             fontsize=7, color="#333333")
-    return fig
+    return ((x1 - x0) * 1000.0 / bbox.width) / ((y1 - y0) / bbox.height)
 
 
 def write_profile_png(plan: Plan, path: str | Path, *, dpi: int = 130) -> Path:
