@@ -70,6 +70,46 @@ def _overlay(grid: np.ndarray, transform, crs):
     return rgba, [[b, l], [t, r]]
 
 
+def contour_lines(grid: np.ndarray, transform, crs, *, target: int = 25):
+    """Contours of a DEM window as (level, [[lat, lon], ...]) lines, at a round interval.
+
+    The interval is the round number (1, 2, 5 x 10^k m) that gives about ``target``
+    levels over the window's relief.
+    """
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from pyproj import Transformer
+
+    z = np.asarray(grid, dtype=float)
+    if not np.isfinite(z).any():
+        return []
+    relief = float(np.nanmax(z) - np.nanmin(z))
+    raw = max(relief / target, 1e-9)
+    mag = 10 ** np.floor(np.log10(raw))
+    step = next(m * mag for m in (1, 2, 5, 10) if m * mag >= raw)
+    levels = np.arange(np.ceil(np.nanmin(z) / step) * step, np.nanmax(z), step)
+    h, w = z.shape
+    cols = np.arange(w) + 0.5
+    rows = np.arange(h) + 0.5
+    fig, ax = plt.subplots()
+    try:
+        cs = ax.contour(cols, rows, np.ma.masked_invalid(z), levels=levels)
+        out = []
+        to_ll = Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
+        for level, segs in zip(cs.levels, cs.allsegs):
+            for seg in segs:
+                if len(seg) < 2:
+                    continue
+                x, y = transform * (seg[:, 0], seg[:, 1])
+                lon, lat = to_ll.transform(np.asarray(x), np.asarray(y))
+                out.append((float(level), np.column_stack([lat, lon]).round(6).tolist()))
+        return out
+    finally:
+        plt.close(fig)
+
+
 def build_map(plan, *, terrain=None, title: str | None = None):
     """The folium Map of a plan, or of several line plans (the links of a tree).
 
@@ -94,16 +134,27 @@ def build_map(plan, *, terrain=None, title: str | None = None):
     lons = np.concatenate([pl.profile.lon for pl in plans])
     m = folium.Map(location=[float(lats.mean()), float(lons.mean())], tiles=None,
                    control_scale=True, zoom_start=14)
+    folium.TileLayer("OpenStreetMap", name="OpenStreetMap (needs internet)", show=False,
+                     overlay=False, control=True).add_to(m)
     if terrain is not None:
         rgba, bounds = _overlay(*terrain)
         folium.raster_layers.ImageOverlay(rgba, bounds=bounds, name="hillshade (DEM)",
                                           opacity=0.9, mercator_project=False).add_to(m)
+        contours = folium.FeatureGroup(name="contours (DEM)")
+        for level, line in contour_lines(*terrain):
+            folium.PolyLine(line, color="#7a5c2e", weight=0.8, opacity=0.8,
+                            tooltip=f"{level:,.0f} m", class_name="contour").add_to(contours)
+        contours.add_to(m)
     vmax = float(max(max(np.nanmax(pl.rating_head_m), np.nanmax(pl.energy.static_pressure_head))
                      for pl in plans))
     vmin = float(min(0.0, min(np.nanmin(pl.energy.pressure_head) for pl in plans)))
     cmap = cm.LinearColormap(["#b2182b", "#f4a582", "#92c5de", "#2166ac", "#053061"],
                              vmin=vmin, vmax=vmax, caption="pressure head at design flow [m]")
     route = folium.FeatureGroup(name="pipeline (pressure head)")
+    by_size = folium.FeatureGroup(name="pipeline (size and class)", show=False)
+    labels = sorted({st.option.label for pl in plans for st in pl.stretches})
+    palette = ["#1b9e77", "#d95f02", "#7570b3", "#e7298a", "#66a61e", "#e6ab02", "#a6761d",
+               "#666666", "#1f78b4", "#b2df8a", "#fb9a99", "#cab2d6", "#ff7f00", "#6a3d9a"]
     marks = folium.FeatureGroup(name="source, tanks, outlets")
     valves = folium.FeatureGroup(name="air valves and washouts")
     esc = html.escape
@@ -116,6 +167,13 @@ def build_map(plan, *, terrain=None, title: str | None = None):
         folium.ColorLine(np.column_stack([prof.lat[idx], prof.lon[idx]]).tolist(),
                          colors=e.pressure_head[idx][:-1].tolist(), colormap=cmap,
                          weight=6).add_to(route)
+        for st in pl.stretches:
+            seg = slice(st.start_index, st.end_index + 1)
+            folium.PolyLine(np.column_stack([prof.lat[seg], prof.lon[seg]]).tolist(), weight=6,
+                            color=palette[labels.index(st.option.label) % len(palette)],
+                            tooltip=esc(f"{st.option.label}: {st.chainage_m:,.0f} to "
+                                        f"{st.chainage_end_m:,.0f} m, {st.length_m:,.0f} m"),
+                            class_name="pipe-stretch").add_to(by_size)
 
         def marker(i, label, popup, colour, radius=8, prof=prof):
             folium.CircleMarker([float(prof.lat[i]), float(prof.lon[i])], radius=radius,
@@ -149,6 +207,8 @@ def build_map(plan, *, terrain=None, title: str | None = None):
                                    f"<br>source: {esc(f.source)}<br>{esc(f.detail)}",
                                    max_width=340)).add_to(valves)
     route.add_to(m)
+    if labels:
+        by_size.add_to(m)
     cmap.add_to(m)
     marks.add_to(m)
     if any(pl.features for pl in plans):
