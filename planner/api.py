@@ -67,7 +67,21 @@ def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
     if np.all(np.isfinite(plan_.profile.lat)):
         written["map.html"] = write_map(plan_, out / "map.html", terrain=terrain)
     written.update(_deliverables([plan_], out, junctions=0))
+    written.update(_report(out, [out / "profile.png"]))
     return written
+
+
+def _report(out: Path, drawings: list[Path]) -> dict[str, Path]:
+    """The HTML (and PDF) report, from the files just written."""
+    import csv
+    import json
+
+    from .report.document import write_report
+
+    data = json.loads((out / "plan.json").read_text(encoding="utf-8"))
+    with (out / "quantities.csv").open(encoding="utf-8") as fh:
+        rows = [r for r in csv.reader(fh)][1:]
+    return write_report(data, drawings, rows, out)
 
 
 def _sheets(plan_, out: Path, stem: str) -> dict[str, Path]:
@@ -135,4 +149,5 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
     junctions = sum(1 for k in range(len(plan_.links))
                     if sum(lk.parent == k for lk in plan_.links) >= 1)
     written.update(_deliverables(link_plans, out, junctions=junctions))
+    written.update(_report(out, [out / d["file"] for d in drawings]))
     return written

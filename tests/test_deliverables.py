@@ -88,3 +88,31 @@ def test_permit_sheets_pdf_pages_and_svg(out):
             texts = [t for t in root.iter() if t.tag.endswith("text")]
             words = " ".join("".join(t.itertext()) for t in texts)
             assert "sheet" in words and "Planning aid only" in words   # title block, notes
+
+
+def test_report_pages(out):
+    import re
+
+    html_text = (out / "report.html").read_text()
+    for heading in ("Inputs", "Criteria", "Results", "Findings", "Drawings", "Bill of quantities",
+                    "Limitations", "Cautions"):
+        assert heading in html_text
+    pdf = (out / "report.pdf").read_bytes()
+    assert len(re.findall(rb"/Type\s*/Page[^s]", pdf)) >= 2
+
+
+def test_markup_in_a_name_is_shown_as_text(demo_folder, tmp_path):
+    import shutil
+
+    for name in ("dem.tif", "route.geojson"):
+        shutil.copy(demo_folder / name, tmp_path / name)
+    text = (demo_folder / "scenario_given_pipe.toml").read_text().replace(
+        'name = "Varo spring - Tamsel - Orun fields gravity main (demo)"',
+        'name = "Line <script>alert(1)</script> & <b>bold</b>"')
+    (tmp_path / "s.toml").write_text(text)
+    res = CliRunner().invoke(main, ["plan", str(tmp_path / "s.toml"), "--out", str(tmp_path / "o")])
+    assert res.exit_code in (0, 2), res.output
+    for page in ("report.html", "map.html"):
+        body = (tmp_path / "o" / page).read_text()
+        assert "<script>alert(1)</script>" not in body
+        assert "&lt;script&gt;alert(1)&lt;/script&gt;" in body
