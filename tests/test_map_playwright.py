@@ -1,0 +1,65 @@
+"""The map driven in Debian's Chromium by playwright, with every network request refused."""
+
+import pytest
+from click.testing import CliRunner
+
+from planner.cli import main
+from tests.test_map_browser import CHROMIUM, FLAGS
+
+import playwright.sync_api as pw   # a test extra: `make test` installs it
+
+
+@pytest.fixture(scope="module")
+def page(demo_folder, tmp_path_factory):
+    out = tmp_path_factory.mktemp("pw")
+    res = CliRunner().invoke(main, ["plan", str(demo_folder / "scenario_network.toml"),
+                                    "--out", str(out)])
+    assert res.exit_code == 0, res.output
+    blocked, errors = [], []
+    with pw.sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True,
+                                    args=[f for f in FLAGS if not f.startswith("--window")])
+        pg = browser.new_page(viewport={"width": 1200, "height": 900})
+        pg.on("pageerror", lambda e: errors.append(str(e)))
+
+        def route(r):
+            if r.request.url.startswith(("file:", "data:")):
+                r.continue_()
+            else:
+                blocked.append(r.request.url)
+                r.abort()
+
+        pg.route("**/*", route)
+        pg.goto((out / "map.html").as_uri())
+        pg.wait_for_selector(".leaflet-overlay-pane path")
+        yield pg, blocked, errors, out
+        browser.close()
+
+
+def test_loads_offline_without_errors(page):
+    pg, blocked, errors, _ = page
+    assert not errors and not blocked
+    assert pg.evaluate("L.version") == "1.9.3"
+
+
+def test_tree_markers_and_layers(page):
+    pg, _, _, _ = page
+    assert pg.locator("path.plan-marker").count() >= 1 + 2 + 4      # source, tanks, outlets
+    assert pg.locator("path.contour").count() > 10
+    assert pg.locator("path.pipe-stretch").count() == 0              # hidden until chosen
+    pg.get_by_text("pipeline (size and class)").click()
+    assert pg.locator("path.pipe-stretch").count() > 5
+
+
+def test_popup_and_screenshot(page, tmp_path):
+    import matplotlib.image as mpimg
+
+    pg, _, _, _ = page
+    pg.locator("path.plan-feature").first.dispatch_event("click")
+    popup = pg.locator(".leaflet-popup-content")
+    popup.wait_for()
+    assert "rule:" in popup.inner_text() and "chainage" in popup.inner_text()
+    shot = tmp_path / "map.png"
+    pg.screenshot(path=str(shot))
+    img = mpimg.imread(shot)[..., :3]
+    assert img.std() > 0.05
