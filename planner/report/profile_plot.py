@@ -81,7 +81,7 @@ def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
 
 
 def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, *,
-                title: bool = True) -> float:
+                title: bool = True, layout_fixed: bool = False) -> float:
     """Draw the elevation panel (and the pressure panel if ``axp``) over a chainage window.
 
     Returns the vertical exaggeration of the elevation panel as drawn [-].
@@ -90,13 +90,19 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
     km = prof.chainage_m / 1000.0
     lo, hi = window if window is not None else (0.0, prof.length_m)
     inside = (prof.chainage_m >= lo - 1e-6) & (prof.chainage_m <= hi + 1e-6)
+    # draw only the window (and one point beyond each end), so sheets draw fast
+    i0 = max(int(np.argmax(inside)) - 1, 0)
+    i1 = min(int(prof.n - np.argmax(inside[::-1])) + 1, prof.n)
+    view = slice(i0, i1)
 
     def in_window(c):
         return lo - 1e-6 <= c <= hi + 1e-6
     base = float(np.nanmin(prof.pipe_m[inside])) - 20.0
-    ax.fill_between(km, prof.ground_m, base, color="#d9cbb0", edgecolor="none", label="ground")
-    ax.plot(km, prof.ground_m, color="#6b5a3e", lw=1.0)
-    ax.plot(km, prof.pipe_m, color="black", lw=1.6, label=f"pipe ({prof.cover_m:g} m cover)")
+    ax.fill_between(km[view], prof.ground_m[view], base, color="#d9cbb0", edgecolor="none",
+                    label="ground")
+    ax.plot(km[view], prof.ground_m[view], color="#6b5a3e", lw=1.0)
+    ax.plot(km[view], prof.pipe_m[view], color="black", lw=1.6,
+            label=f"pipe ({prof.cover_m:g} m cover)")
     for n, (a, b) in enumerate(stretches(prof.filled)):
         v0, v1 = km[max(a - 1, 0)], km[min(b + 1, km.size - 1)]
         for axis in (ax, axp) if axp is not None else (ax,):
@@ -157,10 +163,12 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
                      fontsize=11, loc="left")
 
     if axp is not None:
-        axp.plot(km, e.pressure_head, color="#c0392b", lw=1.5, label="pressure head, design flow")
-        axp.plot(km, e.static_pressure_head, color="#1f4e9c", lw=1.2, ls="--",
+        axp.plot(km[view], e.pressure_head[view], color="#c0392b", lw=1.5,
+                 label="pressure head, design flow")
+        axp.plot(km[view], e.static_pressure_head[view], color="#1f4e9c", lw=1.2, ls="--",
                  label="static pressure head (outlets closed)")
-        axp.plot(km, plan.rating_head_m, color="black", lw=1.0, ls="-.", drawstyle="steps-post",
+        axp.plot(km[view], plan.rating_head_m[view], color="black", lw=1.0, ls="-.",
+                 drawstyle="steps-post",
                  label="pipe rating (derated), as head")
         axp.axhline(0.0, color="#888888", lw=0.8)
         axp.set_ylabel("pressure head [m]")
@@ -168,11 +176,30 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
         axp.grid(True, color="#cccccc", lw=0.5)
         axp.legend(loc="upper left", fontsize=8, framealpha=0.9)
 
+    return vertical_exaggeration(ax, layout_fixed=layout_fixed)
+
+
+def axes_size_in(ax, *, layout_fixed: bool = False) -> tuple[float, float]:
+    """Width and height of an axes on the sheet [inches].
+
+    With a fixed layout (no constrained layout) the axes' position is known without
+    drawing the figure, which is much faster for multi-sheet output.
+    """
     fig = ax.figure
+    if layout_fixed:
+        pos = ax.get_position()
+        w, h = fig.get_size_inches()
+        return pos.width * w, pos.height * h
     fig.canvas.draw()
     bbox = ax.get_window_extent().transformed(fig.dpi_scale_trans.inverted())
+    return bbox.width, bbox.height
+
+
+def vertical_exaggeration(ax, *, layout_fixed: bool = False) -> float:
+    """Horizontal over vertical scale of an elevation panel (x in km, y in m) [-]."""
+    w, h = axes_size_in(ax, layout_fixed=layout_fixed)
     (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
-    return ((x1 - x0) * 1000.0 / bbox.width) / ((y1 - y0) / bbox.height)
+    return ((x1 - x0) * 1000.0 / w) / ((y1 - y0) / h)
 
 
 def write_profile_png(plan: Plan, path: str | Path, *, dpi: int = 130) -> Path:

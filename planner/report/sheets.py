@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from .files import atomic_path
-from .profile_plot import draw_panels
+from .profile_plot import axes_size_in, draw_panels
 
 #: Sheet sizes, landscape [mm] (ISO 216).
 SHEETS = {"A4": (297, 210), "A3": (420, 297), "A2": (594, 420), "A1": (841, 594)}
@@ -77,7 +77,7 @@ def draw_sheet(plan, window, number: int, total: int, *, sheet: str = "A3",
     band = fig.add_subplot(gs[2, :], sharex=ax)
     notes = fig.add_subplot(gs[3, 0])
     block = fig.add_subplot(gs[3, 1])
-    ve = draw_panels(ax, axp, plan, window, title=False)
+    ve = draw_panels(ax, axp, plan, window, title=False, layout_fixed=True)
     axp.set_xlabel("")
     lo, hi = window
     prof, e = plan.profile, plan.energy
@@ -103,11 +103,10 @@ def draw_sheet(plan, window, number: int, total: int, *, sheet: str = "A3",
             axis.axvline(prof.chainage_m[i] / 1000.0, color="#dddddd", lw=0.4, zorder=0)
 
     # scales as printed on this sheet size
-    fig.canvas.draw()
-    bbox = ax.get_window_extent().transformed(fig.dpi_scale_trans.inverted())
+    width_in, height_in = axes_size_in(ax, layout_fixed=True)
     (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
-    h_scale = (x1 - x0) * 1e6 / (bbox.width * 25.4)          # mm of ground per mm of paper
-    v_scale = (y1 - y0) * 1e3 / (bbox.height * 25.4)
+    h_scale = (x1 - x0) * 1e6 / (width_in * 25.4)            # mm of ground per mm of paper
+    v_scale = (y1 - y0) * 1e3 / (height_in * 25.4)
     sc = plan.scenario
     for axis in (notes, block):
         axis.set_xticks([])

@@ -98,13 +98,19 @@ def contour_lines(grid: np.ndarray, transform, crs, *, target: int = 25):
         cs = ax.contour(cols, rows, np.ma.masked_invalid(z), levels=levels)
         out = []
         to_ll = Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
+        from shapely import LineString, simplify
+
         for level, segs in zip(cs.levels, cs.allsegs):
             for seg in segs:
                 if len(seg) < 2:
                     continue
+                # display geometry: drop vertices closer than a third of a pixel to the line
+                seg = np.asarray(simplify(LineString(seg), 0.33).coords)
+                if len(seg) < 2:
+                    continue
                 x, y = transform * (seg[:, 0], seg[:, 1])
                 lon, lat = to_ll.transform(np.asarray(x), np.asarray(y))
-                out.append((float(level), np.column_stack([lat, lon]).round(6).tolist()))
+                out.append((float(level), np.column_stack([lat, lon]).round(5).tolist()))
         return out
     finally:
         plt.close(fig)
