@@ -70,7 +70,7 @@ def draw_sheet(plan, window, number: int, total: int, *, sheet: str = "A3",
 
     w_mm, h_mm = SHEETS[sheet]
     fig = plt.figure(figsize=(w_mm / 25.4, h_mm / 25.4))
-    gs = fig.add_gridspec(4, 2, height_ratios=[3.0, 1.2, 1.1, 0.9], width_ratios=[2.2, 1],
+    gs = fig.add_gridspec(4, 2, height_ratios=[3.0, 1.2, 2.0, 0.9], width_ratios=[2.2, 1],
                           left=0.06, right=0.98, bottom=0.03, top=0.96, hspace=0.22, wspace=0.05)
     ax = fig.add_subplot(gs[0, :])
     axp = fig.add_subplot(gs[1, :], sharex=ax)
@@ -97,7 +97,7 @@ def draw_sheet(plan, window, number: int, total: int, *, sheet: str = "A3",
                   va="center", fontsize=7)
         for i in key_points(plan, lo, hi):
             band.text(prof.chainage_m[i] / 1000.0, y, fmt.format(values[i]), rotation=90,
-                      ha="center", va="center", fontsize=6)
+                      ha="center", va="center", fontsize=5.5)
     for i in key_points(plan, lo, hi):
         for axis in (ax, axp, band):
             axis.axvline(prof.chainage_m[i] / 1000.0, color="#dddddd", lw=0.4, zorder=0)
