@@ -35,6 +35,8 @@ test: $(STAMP) chromium
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_sampling.py
 	$(BIN)/python benchmarks/bench_sizing.py
+	$(BIN)/python benchmarks/bench_tree.py
+	$(BIN)/python benchmarks/bench_outputs.py
 
 clean:
 	rm -rf $(VENV) outputs/demo demo_terrain/dem.tif
