@@ -20,8 +20,6 @@ from numpy.typing import NDArray
 from shapely.geometry import LineString, Point
 from pyproj import Transformer
 
-from ..catalogue.pipes import load_options
-from ..catalogue.standards import temperature_factor
 from ..errors import DesignError, InputError
 from ..geo.network import RouteNetwork, build_tree, read_lines
 from ..geo.profile import Profile, sample_profile
@@ -32,12 +30,11 @@ from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, segment_flows
 from ..hydraulics.network import LinkData, accumulate_flows, tree_energy
 from ..scenario import Scenario
-from ..units import G
 from .checks import Finding, check_yield
 from .features import Feature, place_features
 from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line,
-                   _candidate_data, _cheapest_per_size, _given_pipe, _split_points, _stretches,
-                   _wave_speeds, line_findings)
+                   _candidate_data, _cheapest_per_size, _split_points, _stretches,
+                   _wave_speeds, line_findings, pipe_options, static_limit)
 from .sizing import SizingProblem, SizingResult, best_single_size, solve_sizing, solve_whole_pieces
 from .tanks import TankSite, place_tanks
 
@@ -202,24 +199,12 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
     rho = water.density(cr.temperature_c)
     nu = water.kinematic_viscosity(cr.temperature_c)
     d = sc.design
-    if design:
-        options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
-                               max_od_mm=d.max_size_mm)
-    else:
-        options = [_given_pipe(sc)]
-    try:
-        factors = np.array([temperature_factor(o.material, cr.wall_temperature_c) for o in options])
-    except ValueError as exc:
-        raise InputError(f"criteria.pipe_temperature_c: {exc}") from None
-    rating_head = np.array([o.rating for o in options]) * factors / (rho * G)
+    options, rating_head = pipe_options(sc, rho)
     wave = _wave_speeds(options, rho)
     cand = [_candidate_data(options, q, rho, nu, cr.friction) for q in flows]
 
     # -- tanks on every branch (the static level runs on through junctions), then candidates
-    limit = float(rating_head.max())
-    reason = f"the highest class available, {options[int(rating_head.argmax())].label}"
-    if design and d.max_static_pressure_m is not None and d.max_static_pressure_m < limit:
-        limit, reason = d.max_static_pressure_m, "design.max_static_pressure_m"
+    limit, reason = static_limit(sc, options, rating_head)
     auto = design and d.auto_tanks
     margin = 0.0
     for _ in range(12):

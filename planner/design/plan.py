@@ -281,17 +281,7 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
 
     # -- what may be used, with its rating derated for the wall temperature
     design = sc.design is not None
-    if design:
-        d = sc.design
-        options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
-                               max_od_mm=d.max_size_mm)
-    else:
-        options = [_given_pipe(sc)]
-    try:
-        factors = np.array([temperature_factor(o.material, cr.wall_temperature_c) for o in options])
-    except ValueError as exc:
-        raise InputError(f"criteria.pipe_temperature_c: {exc}") from None
-    rating_head = np.array([o.rating for o in options]) * factors / (rho * G)
+    options, rating_head = pipe_options(sc, rho)
 
     # -- break-pressure tanks, then what each segment may be made of
     wave = _wave_speeds(options, rho)
@@ -518,15 +508,39 @@ def line_findings(refined: Profile, energy: LineEnergy, seg_rating: NDArray, sur
     return out
 
 
+def pipe_options(sc: Scenario, rho: float) -> tuple[list[PipeOption], NDArray[np.float64]]:
+    """The pipes that may be used (catalogues, or the scenario's one pipe) and their
+    ratings derated for the wall temperature, as head [m]."""
+    cr = sc.criteria
+    if sc.design is not None:
+        d = sc.design
+        options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
+                               max_od_mm=d.max_size_mm)
+    else:
+        options = [_given_pipe(sc)]
+    try:
+        factors = np.array([temperature_factor(o.material, cr.wall_temperature_c) for o in options])
+    except ValueError as exc:
+        raise InputError(f"criteria.pipe_temperature_c: {exc}") from None
+    return options, np.array([o.rating for o in options]) * factors / (rho * G)
+
+
+def static_limit(sc: Scenario, options, rating_head) -> tuple[float, str]:
+    """The static head above which a tank is placed [m], and what that limit is, in words."""
+    limit = float(rating_head.max())
+    reason = f"the highest class available, {options[int(rating_head.argmax())].label}"
+    if sc.design is not None and sc.design.max_static_pressure_m is not None \
+            and sc.design.max_static_pressure_m < limit:
+        limit, reason = sc.design.max_static_pressure_m, "design.max_static_pressure_m"
+    return limit, reason
+
+
 def _tank_sites(sc, prof, options, rating_head, top, fixed, margin) -> list[TankSite]:
     """Tanks: the engineer's, plus (design mode) those the static head demands."""
     ch, n = prof.chainage_m, prof.n
     if sc.design is None or not sc.design.auto_tanks:
         return [TankSite(j, lvl, "placed by the engineer", fixed=True) for j, lvl, _ in fixed]
-    limit = float(rating_head.max())
-    reason = f"the highest class available, {options[int(rating_head.argmax())].label}"
-    if sc.design.max_static_pressure_m is not None and sc.design.max_static_pressure_m < limit:
-        limit, reason = sc.design.max_static_pressure_m, "design.max_static_pressure_m"
+    limit, reason = static_limit(sc, options, rating_head)
     if margin > 0:
         limit -= margin
         reason += f", less {margin:.0f} m for surge"

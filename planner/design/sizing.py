@@ -343,7 +343,6 @@ def _one_size_per_reach(p: SizingProblem, *, time_limit: float, mip_rel_gap: flo
     groups = np.unique(p.group)
     pieces_of = _reach_pieces(p)
     R, G_ = len(p.reaches), groups.size
-    big = np.full(p.cost.shape, np.inf)
     # the option each (piece, size) would use, or -1
     pick = np.full((K, G_), -1, dtype=np.int64)
     for gi, g in enumerate(groups):
@@ -352,7 +351,6 @@ def _one_size_per_reach(p: SizingProblem, *, time_limit: float, mip_rel_gap: flo
         best = np.argmin(costs, axis=1)
         ok = np.isfinite(costs[np.arange(K), best])
         pick[ok, gi] = cols[best[ok]]
-    del big
     ny = R * G_
     nh = R                                       # energy head at each reach's end
     nvar = ny + nh

@@ -53,12 +53,12 @@ def _item_costs() -> dict[tuple[str, float], float]:
 
 
 def _cost(costs, item, size):
-    """The item's price for the size, or for the next size up, or without a size."""
+    """The item's price for its size, or the next size up, or the largest listed size."""
     sizes = sorted(s for (i, s) in costs if i == item)
-    for s in sizes:
-        if s >= (size or 0) - 1e-9:
-            return costs[(item, s)]
-    return costs.get((item, 0.0), costs[(item, sizes[-1])] if sizes else 0.0)
+    if not sizes:
+        return 0.0
+    fits = [s for s in sizes if s >= (size or 0.0) - 1e-9]
+    return costs[(item, fits[0] if fits else sizes[-1])]
 
 
 def bill(plans, *, junctions: int = 0, waste: float = WASTE) -> list[Line]:
