@@ -37,6 +37,7 @@ bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_sizing.py
 	$(BIN)/python benchmarks/bench_tree.py
 	$(BIN)/python benchmarks/bench_outputs.py
+	$(BIN)/python benchmarks/bench_live.py
 
 clean:
 	rm -rf $(VENV) outputs/demo demo_terrain/dem.tif

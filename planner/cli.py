@@ -246,6 +246,72 @@ def catalogue(catalogues, materials, min_size, max_size, min_pn):
 
 
 @main.command()
+@click.argument("dem", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--scenario", type=click.Path(dir_okay=False, path_type=Path), default=None,
+              help="Start from this scenario's route, source and outlets.")
+@click.option("--out", type=click.Path(dir_okay=False, path_type=Path), default=Path("draw.html"),
+              show_default=True, help="Where to write the page.")
+@click.option("--open", "open_", is_flag=True, help="Open the page in the web browser.")
+def draw(dem, scenario, out, open_):
+    """Write an offline page to draw a route over DEM's hillshade and contours.
+
+    Draw the main line from the source and the branches, place the source and the
+    outlets, then download the GeoJSON (and a starting scenario) that `gravplan plan`
+    reads.  The page needs no internet and no server.
+
+    \b
+    Example:
+      gravplan draw demo_terrain/dem.tif --out draw.html --open
+    """
+    from .app.draw import write_draw_page
+
+    path = _run(lambda: write_draw_page(dem, out, scenario=scenario))
+    click.echo(f"wrote {path}: open it in a web browser, draw, then download route.geojson")
+    if open_:
+        import webbrowser
+        webbrowser.open(path.resolve().as_uri())
+
+
+@main.command()
+@click.argument("scenario", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--port", type=click.IntRange(0, 65535), default=8765, show_default=True,
+              help="Port on 127.0.0.1 (0: any free port).")
+@click.option("--open", "open_", is_flag=True, help="Open the editor in the web browser.")
+def serve(scenario, port, open_):
+    """Edit SCENARIO's route in the browser and watch the plan follow each edit.
+
+    Serves on 127.0.0.1 only.  Save writes the scenario's route file (GeoJSON) and
+    keeps the previous version beside it as .bak.  Stop with Ctrl-C.
+
+    \b
+    Example:
+      gravplan serve my_line/scenario.toml --open
+    """
+    from . import api
+    from .app.server import App
+
+    def start():
+        try:
+            return App(api.load_scenario(scenario), port=port)
+        except OSError as exc:
+            raise PlannerError(f"cannot listen on 127.0.0.1:{port} ({exc.strerror or exc}); "
+                               "choose another --port") from None
+
+    app = _run(start)
+    click.echo(f"gravplan serve: editing {app.session.scenario.project.name}")
+    click.echo(f"  open {app.url} (Ctrl-C stops); Save writes {app.target}")
+    click.echo("  Planning aid only: confirm levels in the field; local codes and a licensed "
+               "engineer take precedence.")
+    if open_:
+        import webbrowser
+        webbrowser.open(app.url)
+    try:
+        app.serve_forever()
+    except KeyboardInterrupt:
+        click.echo("stopped")
+
+
+@main.command()
 @click.option("--out", type=click.Path(file_okay=False, path_type=Path), default=Path("outputs/demo"),
               show_default=True, help="Folder for the demo's results (replaced).")
 def demo(out):

@@ -144,12 +144,17 @@ def _place_outlets(sc, net, profiles, names, tol):
     return placed
 
 
-def plan_network(scenario: Scenario) -> NetworkPlan:
-    """Design a branched system (see the module docstring)."""
+def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
+    """Design a branched system (see the module docstring).
+
+    ``lines`` (lon/lat ``(LineString, name)`` pairs) replaces the scenario's route file
+    and ``dem`` (an open :class:`~planner.geo.terrain.Dem`) its DEM paths, for the live
+    editor, which keeps one DEM open between edits.
+    """
     sc, cr = scenario, scenario.criteria
     design = sc.design is not None
-    net = build_tree(read_lines(sc.route.file), source=sc.source.location,
-                     snap_tolerance_m=sc.route.join_tolerance_m)
+    net = build_tree(read_lines(sc.route.file) if lines is None else lines,
+                     source=sc.source.location, snap_tolerance_m=sc.route.join_tolerance_m)
     links = net.links
     L = len(links)
     names = [_link_name(lk, k) for k, lk in enumerate(links)]
@@ -160,12 +165,17 @@ def plan_network(scenario: Scenario) -> NetworkPlan:
                 names[k] = f"{nm}, part {i}"
     into = {lk.downstream: k for k, lk in enumerate(links)}
     parents = [into.get(lk.upstream, -1) for lk in links]
-    with open_dem(list(sc.terrain.dem)) as dem:
-        profiles = [sample_profile(Route(line=lk.line, source=f"{sc.route.file.name} ({names[k]})"),
-                                   dem, spacing_m=sc.route.spacing_m,
+    label = sc.route.file.name if lines is None else "the drawing"
+    grid = open_dem(dem if dem is not None else list(sc.terrain.dem))
+    try:
+        profiles = [sample_profile(Route(line=lk.line, source=f"{label} ({names[k]})"),
+                                   grid, spacing_m=sc.route.spacing_m,
                                    cover_m=cr.cover_m, max_void_m=sc.terrain.max_void_m,
                                    vertical_datum=sc.terrain.vertical_datum)
                     for k, lk in enumerate(links)]
+    finally:
+        if dem is None:
+            grid.close()
     root_link = next(k for k in range(L) if parents[k] < 0)
     g0 = float(profiles[root_link].ground_m[0])
     top = sc.source.top_level_m if sc.source.top_level_m is not None else g0 + sc.source.top_above_ground_m

@@ -221,7 +221,8 @@ def _wave_speeds(options, rho):
     return np.array(out)
 
 
-def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=None) -> Plan:
+def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=None,
+                  compare_single_size: bool = True) -> Plan:
     """Compute (and in design mode, design) a scenario's line at design flow.
 
     Parameters
@@ -232,6 +233,8 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
         A profile already sampled (e.g. while editing a route); else sampled here.
     dem : Dem, optional
         An open DEM to reuse between calls.
+    compare_single_size : bool
+        Also price the cheapest single size for comparison (the live editor skips it).
 
     Returns
     -------
@@ -373,14 +376,19 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                 # programme where the built line falls short
                 short = req_r - energy.pressure_head
                 used = np.max(np.where(sizing.lengths > 1e-9, hv_cand[splits[:-1]], 0.0), axis=1)
-                converged = bool(np.all(short <= 5e-4) and np.all(used <= hv_k + 1e-9))
+                # a design that passes the recheck is valid; when the LP is the final method
+                # that is enough, since assumed velocity heads at or below the built ones only
+                # loosen the programme (its optimum stays a lower bound).  Before a MILP the
+                # velocity heads are converged too, so that the MILP starts from them.
+                converged = bool(np.all(short <= 5e-4) and (
+                    (stage == "lp" and final == "lp") or np.all(used <= hv_k + 1e-9)))
                 if converged:
                     break
                 hv_k = np.maximum(hv_k, used)
                 for i in np.flatnonzero(short > 5e-4):
                     j = min(int(np.searchsorted(ch, refined.chainage_m[i] - 1e-9)), n - 1)
                     extra[j] += short[i] + 1e-3
-        single_cost = best_single_size(problem)[0]
+        single_cost = best_single_size(problem)[0] if compare_single_size else None
     if not design:
         energy, remap, surfaces_r, req_r = _exact_energy(
             prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr)
@@ -426,9 +434,10 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
         findings.append(Finding(
             "note", "sizing",
             f"sizes and classes chosen by the {sizing.method} at least cost "
-            f"({sizing.cost:,.0f}, optimality gap {sizing.gap * 100:.2g} %); "
-            + (f"the cheapest single size would cost {single_cost:,.0f}"
-               if np.isfinite(single_cost) else "no single size meets every limit")))
+            f"({sizing.cost:,.0f}, optimality gap {sizing.gap * 100:.2g} %)"
+            + ("" if single_cost is None else
+               f"; the cheapest single size would cost {single_cost:,.0f}"
+               if np.isfinite(single_cost) else "; no single size meets every limit")))
     findings += [Finding("note", "profile", note) for note in prof.notes]
     findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity],
                                  f.chainage_m if f.chainage_m is not None else -1.0))

@@ -43,7 +43,8 @@ def _css_with_data_uris(css: str, folder: Path) -> str:
         if ref.startswith(("data:", "#")) or not path.is_file():
             return m.group(0)
         data = base64.b64encode(path.read_bytes()).decode("ascii")
-        return f"url(data:image/png;base64,{data})"
+        mime = {".svg": "image/svg+xml", ".woff2": "font/woff2"}.get(path.suffix.lower(), "image/png")
+        return f"url(data:{mime};base64,{data})"
     return re.sub(r"url\(([^)]+)\)", repl, css)
 
 

@@ -1,0 +1,225 @@
+"""``gravplan serve``: a local web app that re-plans the route at every edit.
+
+The standard library's ``ThreadingHTTPServer`` is enough for one engineer on one
+machine.  What keeps it safe:
+
+- it binds to the loopback address only (127.0.0.1) and answers only requests whose
+  ``Host`` is that address or ``localhost`` (no DNS rebinding), and POSTs only from
+  its own page (``Origin`` checked);
+- request bodies are limited to :data:`MAX_BODY` bytes and must be JSON;
+- the page never sends a file path: the route file that Save writes is fixed when the
+  server starts (the scenario's own), and the previous version is kept as ``.bak``;
+- a malformed drawing is a message shown in the page (HTTP 200 with ``ok: false``, or
+  400 for a body that is not JSON), never a server error.
+
+Endpoints: ``GET /`` the page, ``GET /api/state`` what is being edited,
+``POST /api/plan`` a drawing -> the plan digest (see :mod:`planner.app.session`),
+``POST /api/save`` a drawing -> written to the route file.
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+import shutil
+import threading
+from http import HTTPStatus
+from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
+from pathlib import Path
+
+from ..errors import PlannerError
+from ..report.files import write_text
+from .session import DrawingError, LiveSession, parse_drawing
+
+log = logging.getLogger(__name__)
+
+#: Largest request body accepted [bytes] (a 20,000-vertex drawing is about 0.6 MB).
+MAX_BODY = 2 * 1024 * 1024
+LOOPBACK = "127.0.0.1"
+
+
+def route_drawing(scenario) -> dict:
+    """The scenario's route file as a GeoJSON FeatureCollection of its lines."""
+    from shapely.geometry import mapping
+
+    if scenario.route.network:
+        from ..geo.network import read_lines
+        pairs = read_lines(scenario.route.file)
+    else:
+        from ..geo.route import Survey, read_route
+        route = read_route(scenario.route.file, crs=scenario.route.crs)
+        if isinstance(route, Survey):
+            raise PlannerError(f"{scenario.route.file}: a CSV survey has no map coordinates to "
+                               "edit; draw the route with `gravplan draw DEM` instead")
+        pairs = [(route.line, "main")]
+    return {"type": "FeatureCollection",
+            "features": [{"type": "Feature", "properties": {"name": name},
+                          "geometry": mapping(line)} for line, name in pairs]}
+
+
+def save_target(scenario) -> Path:
+    """Where Save writes: the route file itself if it is GeoJSON, else a GeoJSON beside it."""
+    p = Path(scenario.route.file)
+    return p if p.suffix.lower() in (".geojson", ".json") else p.with_suffix(".geojson")
+
+
+def save_drawing(drawing, target: Path) -> dict:
+    """Check the drawing, keep the current file as ``<name>.bak``, write the new one atomically."""
+    lines, _ = parse_drawing(drawing)
+    from shapely.geometry import mapping
+
+    fc = {"type": "FeatureCollection",
+          "features": [{"type": "Feature", "properties": {"name": name or f"line {k + 1}"},
+                        "geometry": mapping(line)} for k, (line, name) in enumerate(lines)]}
+    backup = None
+    if target.exists():
+        backup = target.with_name(target.name + ".bak")
+        shutil.copy2(target, backup)
+    write_text(target, json.dumps(fc, indent=1) + "\n")
+    return {"ok": True, "saved": target.name, "backup": backup.name if backup else None,
+            "lines": len(lines)}
+
+
+class _Handler(BaseHTTPRequestHandler):
+    server_version = "gravplan"
+    app: "App"
+
+    def log_message(self, fmt, *args):           # quiet by default; -v shows requests
+        log.info("%s %s", self.address_string(), fmt % args)
+
+    def _send(self, status: int, body: bytes, ctype: str) -> None:
+        self.send_response(status)
+        self.send_header("Content-Type", ctype)
+        self.send_header("Content-Length", str(len(body)))
+        self.send_header("Cache-Control", "no-store")
+        self.send_header("X-Content-Type-Options", "nosniff")
+        self.send_header("Content-Security-Policy",
+                         "default-src 'self' data: blob:; script-src 'unsafe-inline'; "
+                         "style-src 'unsafe-inline'; img-src 'self' data: blob:")
+        self.end_headers()
+        self.wfile.write(body)
+
+    def _json(self, status: int, obj) -> None:
+        self._send(status, json.dumps(obj, allow_nan=False).encode(), "application/json")
+
+    def _host_ok(self) -> bool:
+        host = (self.headers.get("Host") or "").rsplit(":", 1)[0].strip("[]")
+        return host in (LOOPBACK, "localhost")
+
+    def do_GET(self):
+        if not self._host_ok():
+            return self._json(HTTPStatus.FORBIDDEN, {"ok": False, "error": "wrong host"})
+        path = self.path.split("?", 1)[0]
+        if path in ("/", "/index.html"):
+            return self._send(HTTPStatus.OK, self.app.page.encode(), "text/html; charset=utf-8")
+        if path == "/favicon.ico":
+            self.send_response(HTTPStatus.NO_CONTENT)
+            self.end_headers()
+            return None
+        if path == "/api/state":
+            return self._json(HTTPStatus.OK, {"ok": True, "scenario": self.app.session.scenario.project.name,
+                                              "saves_to": self.app.target.name,
+                                              "drawing": self.app.drawing})
+        return self._json(HTTPStatus.NOT_FOUND, {"ok": False, "error": f"no such page: {path}"})
+
+    def _body(self):
+        """The request's JSON body, or None after answering with the reason."""
+        if not self._host_ok():
+            self._json(HTTPStatus.FORBIDDEN, {"ok": False, "error": "wrong host"})
+            return None
+        origin = self.headers.get("Origin")
+        if origin is not None and origin.split("//", 1)[-1].rsplit(":", 1)[0] not in (LOOPBACK, "localhost"):
+            self._json(HTTPStatus.FORBIDDEN, {"ok": False, "error": "requests must come from the editor page"})
+            return None
+        if (self.headers.get("Content-Type") or "").split(";")[0].strip() != "application/json":
+            self._json(HTTPStatus.UNSUPPORTED_MEDIA_TYPE, {"ok": False, "error": "send the drawing as application/json"})
+            return None
+        try:
+            size = int(self.headers.get("Content-Length") or "")
+        except ValueError:
+            self._json(HTTPStatus.LENGTH_REQUIRED, {"ok": False, "error": "Content-Length is required"})
+            return None
+        if size > MAX_BODY or size < 0:
+            self.close_connection = True
+            self._json(HTTPStatus.REQUEST_ENTITY_TOO_LARGE,
+                       {"ok": False, "error": f"the drawing is {size:,} bytes; at most {MAX_BODY:,} are accepted"})
+            return None
+        raw = self.rfile.read(size)
+        try:
+            return json.loads(raw.decode("utf-8"))
+        except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+            self._json(HTTPStatus.BAD_REQUEST, {"ok": False, "error": f"the drawing is not valid JSON ({exc})"})
+            return None
+
+    def do_POST(self):
+        path = self.path.split("?", 1)[0]
+        if path not in ("/api/plan", "/api/save"):
+            return self._json(HTTPStatus.NOT_FOUND, {"ok": False, "error": f"no such endpoint: {path}"})
+        drawing = self._body()
+        if drawing is None:
+            return
+        try:
+            if path == "/api/plan":
+                return self._json(HTTPStatus.OK, self.app.session.replan(drawing))
+            with self.app.save_lock:
+                answer = save_drawing(drawing, self.app.target)
+                self.app.drawing = drawing
+            return self._json(HTTPStatus.OK, answer)
+        except (DrawingError, PlannerError) as exc:
+            return self._json(HTTPStatus.OK, {"ok": False, "error": str(exc)})
+        except OSError as exc:
+            return self._json(HTTPStatus.OK, {"ok": False, "error": f"could not write {self.app.target.name}: {exc}"})
+        except Exception as exc:                  # a bug: say so in the page, log the trace
+            log.exception("internal error")
+            return self._json(HTTPStatus.INTERNAL_SERVER_ERROR,
+                              {"ok": False, "error": f"internal error in gravplan ({type(exc).__name__}); "
+                               "please report it with the drawing"})
+
+
+class App:
+    """The server's state: the session, the page, the file Save writes."""
+
+    def __init__(self, scenario, *, port: int = 8765):
+        from .page import build_page, terrain_layers
+
+        self.session = LiveSession(scenario)
+        self.target = save_target(scenario)
+        self.drawing = route_drawing(scenario)
+        self.save_lock = threading.Lock()
+        markers = _scenario_markers(scenario, self.drawing)
+        self.page = build_page(mode="live", title=scenario.project.name,
+                               terrain=terrain_layers(self.session.dem), drawing=self.drawing,
+                               markers=markers)
+        handler = type("Handler", (_Handler,), {"app": self})
+        self.httpd = ThreadingHTTPServer((LOOPBACK, port), handler)
+        self.httpd.daemon_threads = True
+
+    @property
+    def url(self) -> str:
+        return f"http://{LOOPBACK}:{self.httpd.server_address[1]}/"
+
+    def serve_forever(self) -> None:
+        try:
+            self.httpd.serve_forever()
+        finally:
+            self.httpd.server_close()
+            self.session.close()
+
+    def shutdown(self) -> None:
+        self.httpd.shutdown()
+
+
+def _scenario_markers(scenario, drawing) -> list[dict]:
+    """The source and the outlets that have a location, as fixed markers."""
+    out = []
+    feats = drawing["features"]
+    if scenario.source.location is not None:
+        lon, lat = scenario.source.location
+    else:
+        lon, lat = feats[0]["geometry"]["coordinates"][0][:2] if feats else (None, None)
+    if lon is not None:
+        out.append({"role": "source", "name": scenario.source.name, "ll": [lat, lon]})
+    for o in scenario.outlets:
+        if o.location is not None:
+            out.append({"role": "outlet", "name": o.name, "ll": [o.location[1], o.location[0]]})
+    return out
