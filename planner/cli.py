@@ -291,8 +291,11 @@ def serve(scenario, port, open_):
     from .app.server import App
 
     def start():
+        sc = api.load_scenario(scenario)
         try:
-            return App(api.load_scenario(scenario), port=port)
+            return App(sc, port=port)
+        except PlannerError:
+            raise
         except OSError as exc:
             raise PlannerError(f"cannot listen on 127.0.0.1:{port} ({exc.strerror or exc}); "
                                "choose another --port") from None

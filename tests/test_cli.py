@@ -15,7 +15,7 @@ def runner():
 
 
 def test_help_for_every_command(runner):
-    for args in ([], ["profile"], ["plan"], ["demo"]):
+    for args in ([], ["profile"], ["plan"], ["demo"], ["draw"], ["serve"], ["catalogue"]):
         res = runner.invoke(main, args + ["--help"])
         assert res.exit_code == 0 and "Usage" in res.output and "Example" in res.output
 
@@ -75,3 +75,37 @@ def test_plan_with_design_errors_exits_2_and_keeps_files(runner, demo_folder, tm
     # a 30 mm pipe cannot carry 2.7 L/s over the spur: the HGL drops below the pipe
     assert "sub-atmospheric" in codes
     assert "error   pressure below atmospheric" in res.output
+
+
+def test_draw_writes_an_offline_page(runner, demo_folder, tmp_path):
+    import re
+    out = tmp_path / "draw.html"
+    res = runner.invoke(main, ["draw", str(demo_folder / "dem.tif"), "--out", str(out),
+                               "--scenario", str(demo_folder / "scenario.toml")])
+    assert res.exit_code == 0, res.output
+    page = out.read_text()
+    assert not re.search(r'<(script|link|img)[^>]+(src|href)="?(https?:)?//', page)
+    data = json.loads(page.split('type="application/json">')[1].split("</script>")[0])
+    assert data["mode"] == "draw"
+    roles = [f["properties"].get("role") for f in data["drawing"]["features"]]
+    assert roles.count("source") == 1 and roles.count("outlet") == 2     # the demo's
+
+
+@pytest.mark.parametrize("args, words", [
+    (["draw", "nope.tif"], "DEM file not found"),
+    (["draw", "README.md"], "cannot open as a raster"),
+    (["serve", "nothere.toml"], "scenario file not found"),
+])
+def test_editor_commands_user_errors(runner, args, words):
+    res = runner.invoke(main, args)
+    assert res.exit_code == 1 and words in res.output and "Traceback" not in res.output
+
+
+def test_serve_reports_a_busy_port(runner, demo_folder):
+    import socket
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        s.listen()
+        port = s.getsockname()[1]
+        res = runner.invoke(main, ["serve", str(demo_folder / "scenario.toml"), "--port", str(port)])
+    assert res.exit_code == 1 and "choose another --port" in res.output
