@@ -38,6 +38,7 @@ bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_tree.py
 	$(BIN)/python benchmarks/bench_outputs.py
 	$(BIN)/python benchmarks/bench_live.py
+	$(BIN)/python benchmarks/bench_uncertainty.py
 
 clean:
 	rm -rf $(VENV) outputs/demo demo_terrain/dem.tif

@@ -143,9 +143,13 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
         written.update(_sheets(path_plan, out, f"profile_{slug}"))
         drawings.append({"file": name, "links": plan_.path(k), "to": last})
     written["plan.json"] = write_network_json(plan_, link_plans, drawings, out / "plan.json")
+    risk = {}
+    for _, u in plan_.uncertainty:
+        for name, p, fall in u.outlets:
+            risk.setdefault(name, (p, fall))
     written["map.html"] = write_map(link_plans, out / "map.html",
                                     terrain=_terrain_window(link_plans),
-                                    title=plan_.scenario.project.name)
+                                    title=plan_.scenario.project.name, outlet_risk=risk)
     junctions = sum(1 for k in range(len(plan_.links))
                     if sum(lk.parent == k for lk in plan_.links) >= 1)
     written.update(_deliverables(link_plans, out, junctions=junctions))

@@ -148,7 +148,23 @@ def _report(plan, written):
         for f in plan.features:
             click.echo(f"    {f.kind.replace('_', ' '):<9} {f.chainage_m:>8,.0f} m  "
                        f"DN{f.size_mm:<4.0f} {f.rule}")
+    _uncertainty_lines([("", plan.uncertainty)] if plan.uncertainty else [])
     _findings_and_files(plan.findings, written)
+
+
+def _uncertainty_lines(runs):
+    if not runs:
+        return
+    m = runs[0][1].model
+    click.echo(f"  DEM uncertainty (sigma {m.sigma_m:.2f} m over {m.correlation_m:,.0f} m, "
+               f"{runs[0][1].realisations:,} realisations; {m.source}):")
+    for name, u in runs:
+        if name:
+            click.echo(f"    path {name}:")
+        for o, p, fall in u.outlets:
+            click.echo(f"    {o}: {p:.0%} chance below its minimum; 95 % fall {fall:.1f} m")
+        click.echo(f"    recommended margin: +{u.margin_m:.1f} m on outlet minimums, "
+                   f"+{u.static_margin_m:.1f} m on static pressure")
 
 
 def _report_network(plan, written):
@@ -175,6 +191,7 @@ def _report_network(plan, written):
         n_air = sum(f.kind == "air_valve" for f in lk.features)
         n_wash = sum(f.kind == "washout" for f in lk.features)
         click.echo(f"    {n_air} air valve(s), {n_wash} washout(s)")
+    _uncertainty_lines(list(plan.uncertainty))
     _findings_and_files(plan.findings, written)
 
 

@@ -51,3 +51,7 @@ class NoDataWarning(UserWarning):
 
 class TerrainWarning(UserWarning):
     """Something about the DEM or CRS the user should know (distortion, striping)."""
+
+
+class UnitWarning(UserWarning):
+    """A value that is valid but looks like a unit mistake (metres for millimetres...)."""

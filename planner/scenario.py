@@ -11,11 +11,12 @@ from __future__ import annotations
 
 import difflib
 import tomllib
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from .errors import InputError, InputFileError
+from .errors import InputError, InputFileError, UnitWarning
 from .hydraulics.friction import FRICTION_METHODS
 from .units import BAR, LPS, MM
 
@@ -160,6 +161,28 @@ class Drawing:
 
 
 @dataclass(frozen=True)
+class UncertaintySpec:
+    """The DEM error model and the Monte Carlo's size ([uncertainty])."""
+
+    enabled: bool = True
+    product: str | None = None          # a key of planner.design.uncertainty.PRODUCTS
+    sigma_m: float | None = None        # overrides the product's value
+    correlation_m: float | None = None
+    realisations: int = 1000
+    seed: int = 0
+
+
+@dataclass(frozen=True)
+class SurveyPoint:
+    """A surveyed ground level the profile is pinned to ([[survey_points]])."""
+
+    name: str
+    elevation_m: float
+    chainage_m: float | None = None
+    location: tuple[float, float] | None = None
+
+
+@dataclass(frozen=True)
 class Scenario:
     path: Path
     project: Project
@@ -173,6 +196,8 @@ class Scenario:
     criteria: Criteria = field(default_factory=Criteria)
     design: Design | None = None
     drawing: Drawing = field(default_factory=Drawing)
+    uncertainty: "UncertaintySpec" = field(default_factory=lambda: UncertaintySpec())
+    survey_points: tuple[SurveyPoint, ...] = field(default=())
 
 
 # ---------------------------------------------------------------------------
@@ -205,6 +230,9 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
                  "grade_break": (_NUM, False), "grade_window_m": (_NUM, False),
                  "air_valve_spacing_m": (_NUM, False), "long_ascent_m": (_NUM, False),
                  "max_outlet_pressure_m": (_NUM, False)},
+    "uncertainty": {"enabled": (bool, False), "product": (str, False), "sigma_m": (_NUM, False),
+                    "correlation_m": (_NUM, False), "realisations": (int, False),
+                    "seed": (int, False)},
     "drawing": {"sheet": (str, False), "km_per_sheet": (_NUM, False), "revision": (str, False),
                 "date": (str, False)},
     "design": {"catalogues": (list, False), "materials": (list, False),
@@ -221,6 +249,8 @@ TABLE_ARRAYS = {
                 "chainage_m": (_NUM, False), "location": (list, False), "kind": (str, False)},
     "break_pressure_tanks": {"name": (str, False), "chainage_m": (_NUM, True),
                              "water_above_ground_m": (_NUM, False), "link": (str, False)},
+    "survey_points": {"name": (str, False), "elevation_m": (_NUM, True),
+                      "chainage_m": (_NUM, False), "location": (list, False)},
     "fittings": {"name": (str, False), "chainage_m": (_NUM, True), "k": (_NUM, True),
                  "link": (str, False)},
 }
@@ -228,6 +258,27 @@ REQUIRED_SECTIONS = ("project", "route", "source")
 #: Default minimum residual pressure at an outlet [m]: Akvopedia "Public standpost"
 #: (after WHO/IRC) gives 10-30 m at standposts.
 DEFAULT_OUTLET_MIN_PRESSURE_M = 10.0
+
+
+#: Outlet flows above this are warned about as likely unit mistakes [L/s] (common
+#: practice: rural gravity supply and irrigation mains carry 0.1 to some tens of L/s).
+LARGE_FLOW_LPS = 200.0
+#: Pipe diameters below this are warned about as likely metres [mm] (the smallest
+#: catalogue pipe, PE 16 mm, ISO 4427-2).
+SMALL_DIAMETER_MM = 10.0
+
+
+def _large_flow(key: str, value) -> None:
+    if isinstance(value, _NUM) and not isinstance(value, bool) and value > LARGE_FLOW_LPS:
+        warnings.warn(f"{key} = {value:,.0f} L/s is very large for a gravity line (more than "
+                      f"{LARGE_FLOW_LPS:g} L/s); check the units: flow_lps is in litres per "
+                      f"second (1 m3/h = 0.278 L/s, 1 m3/s = 1,000 L/s)", UnitWarning, stacklevel=3)
+
+
+def _looks_like_metres(key: str, value) -> None:
+    if isinstance(value, _NUM) and not isinstance(value, bool) and 0 < value < SMALL_DIAMETER_MM:
+        warnings.warn(f"{key} = {value:g} mm is smaller than any catalogue pipe; was it given in "
+                      f"metres? ({value:g} m = {value * 1000:g} mm)", UnitWarning, stacklevel=3)
 
 
 class _Problems(list):
@@ -417,6 +468,8 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
         if criteria.friction == "hazen-williams" and "hazen_williams_c" not in pp:
             problems.add("pipe.hazen_williams_c", "needed for criteria.friction = "
                          "'hazen-williams' (e.g. 150 for PE or PVC)")
+    for k in ("inside_diameter_mm", "outside_diameter_mm"):
+        _looks_like_metres(f"pipe.{k}", pp.get(k))
     pipe = None
     if "pipe" in data:
         pipe = Pipe(material=pp.get("material", ""), label=pp.get("label", ""),
@@ -448,6 +501,7 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
             problems.add(f"{key}.location", f"expected [longitude, latitude], got {loc!r}")
             loc = None
         _positive(problems, f"{key}.flow_lps", o.get("flow_lps"))
+        _large_flow(f"{key}.flow_lps", o.get("flow_lps"))
         _positive(problems, f"{key}.chainage_m", o.get("chainage_m"), allow_zero=True)
         flow, basis, volume = o.get("flow_lps", 0.0) * LPS, "flow given", None
         if ("flow_lps" in o) == ("demand" in o):
@@ -501,6 +555,37 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
     _positive(problems, "drawing.km_per_sheet", dr.get("km_per_sheet"))
     drawing = Drawing(sheet=dr.get("sheet", "A3"), km_per_sheet=float(dr.get("km_per_sheet", 2.0)),
                       revision=dr.get("revision", "A"), date=dr.get("date"))
+    from .design.uncertainty import PRODUCTS
+    u = sec["uncertainty"]
+    if "product" in u and u["product"] not in PRODUCTS:
+        close = difflib.get_close_matches(u["product"], PRODUCTS, n=1)
+        problems.add("uncertainty.product", f"unknown DEM product {u['product']!r}"
+                     + (f"; did you mean {close[0]!r}?" if close else "")
+                     + f" (known: {', '.join(PRODUCTS)}; or give sigma_m)")
+    _positive(problems, "uncertainty.sigma_m", u.get("sigma_m"), allow_zero=True)
+    _positive(problems, "uncertainty.correlation_m", u.get("correlation_m"))
+    if not 10 <= u.get("realisations", 1000) <= 100_000:
+        problems.add("uncertainty.realisations", f"must be 10 to 100,000, got {u['realisations']}")
+    uncertainty = UncertaintySpec(enabled=u.get("enabled", True), product=u.get("product"),
+                                  sigma_m=u.get("sigma_m"), correlation_m=u.get("correlation_m"),
+                                  realisations=int(u.get("realisations", 1000)),
+                                  seed=int(u.get("seed", 0)))
+    survey_points = []
+    for i, sp in enumerate(arrays["survey_points"], start=1):
+        key = f"survey_points[{i}]"
+        if ("chainage_m" in sp) == ("location" in sp):
+            problems.add(key, "give exactly one of chainage_m or location = [lon, lat]")
+        loc = sp.get("location")
+        if loc is not None and (len(loc) != 2 or not all(isinstance(v, _NUM) for v in loc)):
+            problems.add(f"{key}.location", f"expected [longitude, latitude], got {loc!r}")
+            loc = None
+        survey_points.append(SurveyPoint(name=sp.get("name", f"survey point {i}"),
+                                         elevation_m=float(sp.get("elevation_m", 0.0)),
+                                         chainage_m=sp.get("chainage_m"),
+                                         location=tuple(loc) if loc else None))
+    if survey_points and route.network:
+        problems.add("survey_points", "pinning surveyed levels is not yet supported on a "
+                     "branched system; pin them on each line planned alone")
     if problems:
         listing = "\n  - ".join(problems)
         raise InputError(f"{path}: {len(problems)} problem(s) in the scenario:\n  - {listing}")
@@ -510,7 +595,7 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                                    engineer=p.get("engineer", ""), notes=p.get("notes", "")),
         terrain=terrain, route=route, source=source, pipe=pipe, outlets=tuple(outlets),
         tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria, design=design,
-        drawing=drawing)
+        drawing=drawing, uncertainty=uncertainty, survey_points=tuple(survey_points))
 
 
 #: Keys of each demand kind: key -> (required, default).
@@ -606,6 +691,8 @@ def _design(d: dict, problems: _Problems) -> Design:
                          f"to_chainage_m] with from < to, got {z!r}")
             continue
         zones.append((float(z[0]), float(z[1])))
+    for key in ("min_size_mm", "max_size_mm"):
+        _looks_like_metres(f"design.{key}", d.get(key))
     for key in ("min_size_mm", "max_size_mm", "max_static_pressure_m", "split_spacing_m"):
         _positive(problems, f"design.{key}", d.get(key))
     _positive(problems, "design.tank_water_depth_m", d.get("tank_water_depth_m"), allow_zero=True)

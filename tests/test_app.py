@@ -186,9 +186,19 @@ def test_malformed_requests_get_messages(server, body, ctype, status, words):
 
 
 def test_request_size_limit(server):
+    """A body announced above the limit is refused before it is read."""
+    import http.client
+
     app, _ = server
-    code, res = _post(app.url + "api/plan", b" " * (MAX_BODY + 1))
-    assert code == 413 and "at most" in res["error"]
+    conn = http.client.HTTPConnection("127.0.0.1", app.httpd.server_address[1], timeout=10)
+    conn.putrequest("POST", "/api/plan")
+    conn.putheader("Content-Type", "application/json")
+    conn.putheader("Content-Length", str(MAX_BODY + 1))
+    conn.endheaders()
+    r = conn.getresponse()
+    res = json.loads(r.read())
+    conn.close()
+    assert r.status == 413 and "at most" in res["error"]
 
 
 def test_foreign_host_and_origin_refused(server):

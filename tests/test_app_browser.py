@@ -212,12 +212,14 @@ def test_serve_draw_edit_undo_save(browser, live, demo_folder):
     assert moved["ok"], moved.get("error")
     assert moved["length_m"] != drawn["length_m"]
     pg.click(".leaflet-draw-actions a[title='Save changes']")
+    pg.wait_for_function("gp.idle()", timeout=30000)
+    steps = len(pg.evaluate("gp.history()"))
 
     # undo: back to the line as clicked, and to its design
-    pg.wait_for_timeout(200)
     n = pg.evaluate("gp.requests")
     pg.click("#undo")
     undone = _result(pg, n)
+    assert len(pg.evaluate("gp.history()")) == steps - 1
     assert undone["length_m"] == pytest.approx(drawn["length_m"], abs=0.05)
     assert undone["cost"] == pytest.approx(drawn["cost"], abs=0.5)
     assert pg.evaluate("gp.getDrawing()") == clicked

@@ -278,3 +278,37 @@ def check_surge(stretches_, criteria) -> list[Finding]:
             slower + "use a higher pressure class, or add a break-pressure tank",
             s.chainage_m, s.chainage_end_m))
     return out
+
+
+def gravity_reachable(top_level_m: float, pipe_start_m: float,
+                      outlets: list[tuple[str, float, float]]) -> list[str]:
+    """What gravity cannot do at all, whatever the pipe: one message per problem.
+
+    Parameters
+    ----------
+    top_level_m : float
+        The source's highest water level [m].
+    pipe_start_m : float
+        Pipe elevation where the line leaves the source [m].
+    outlets : list of (name, chainage [m], ground [m])
+
+    Notes
+    -----
+    Water runs downhill only: a tap above the source's water level gets nothing, and
+    a source whose water stands below its outlet pipe feeds nothing (energy balance,
+    e.g. Jordan, "A Handbook of Gravity-Flow Water Systems", 1980, ch. 6).
+    """
+    problems = []
+    if top_level_m <= pipe_start_m:
+        problems.append(
+            f"the source's top water level {top_level_m:,.2f} m is not above the pipe where it "
+            f"leaves the source ({pipe_start_m:,.2f} m): no water enters the line; check the "
+            "source levels (absolute levels must be on the DEM's datum)")
+    for name, chainage, ground in outlets:
+        if ground >= top_level_m:
+            problems.append(
+                f"outlet {name!r} at chainage {chainage:,.0f} m stands at {ground:,.1f} m, "
+                f"{ground - top_level_m:,.1f} m above the source's water level "
+                f"({top_level_m:,.1f} m): gravity cannot deliver there; move the outlet, find "
+                "a higher source, or pump")
+    return problems

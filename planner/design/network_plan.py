@@ -20,7 +20,7 @@ from numpy.typing import NDArray
 from shapely.geometry import LineString, Point
 from pyproj import Transformer
 
-from ..errors import DesignError, InputError
+from ..errors import DesignError, InputError, InputFileError
 from ..geo.network import RouteNetwork, build_tree, read_lines
 from ..geo.profile import Profile, sample_profile
 from ..geo.route import WGS84, Route
@@ -30,7 +30,8 @@ from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, segment_flows
 from ..hydraulics.network import LinkData, accumulate_flows, tree_energy
 from ..scenario import Scenario
-from .checks import Finding, check_yield
+from .checks import Finding, check_yield, gravity_reachable
+from .uncertainty import Uncertainty
 from .features import Feature, place_features
 from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line,
                    _candidate_data, _cheapest_per_size, _split_points, _stretches,
@@ -73,6 +74,8 @@ class NetworkPlan:
     single_size_cost: float | None = None
     mode: str = "design"
     link_flow_m3s: tuple[float, ...] = field(default=())
+    #: the DEM-error Monte Carlo along each path from the source to a branch end
+    uncertainty: tuple[tuple[str, Uncertainty], ...] = field(default=())
 
     @property
     def errors(self) -> list[Finding]:
@@ -153,8 +156,13 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
     """
     sc, cr = scenario, scenario.criteria
     design = sc.design is not None
-    net = build_tree(read_lines(sc.route.file) if lines is None else lines,
-                     source=sc.source.location, snap_tolerance_m=sc.route.join_tolerance_m)
+    try:
+        net = build_tree(read_lines(sc.route.file) if lines is None else lines,
+                         source=sc.source.location, snap_tolerance_m=sc.route.join_tolerance_m)
+    except InputFileError:
+        raise
+    except InputError as exc:
+        raise InputError(f"{sc.route.file if lines is None else 'the drawing'}: {exc}") from None
     links = net.links
     L = len(links)
     names = [_link_name(lk, k) for k, lk in enumerate(links)]
@@ -182,6 +190,11 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
     low = sc.source.low_level_m if sc.source.low_level_m is not None else g0 + sc.source.low_above_ground_m
 
     placed = _place_outlets(sc, net, profiles, names, cr.snap_tolerance_m)
+    impossible = gravity_reachable(top, float(profiles[root_link].pipe_m[0]), [
+        (o.name, float(profiles[k].chainage_m[j]), float(profiles[k].ground_m[j]))
+        for o, k, j in placed])
+    if impossible:
+        raise DesignError("no gravity flow is possible:\n  - " + "\n  - ".join(impossible))
     fixed = [[] for _ in range(L)]
     for i, tk in enumerate(sc.tanks, start=1):
         k, j = _on_link(net, profiles, names, tk.link, tk.chainage_m,
@@ -410,13 +423,13 @@ def _results(sc, net, names, parents, children, profiles, built, energies, remap
             + (f"the cheapest single size would cost {single:,.0f}" if np.isfinite(single)
                else "no single size meets every limit")))
     findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity], f.message))
-    return NetworkPlan(scenario=sc, network=net, links=tuple(link_plans),
+    return _with_uncertainty(NetworkPlan(scenario=sc, network=net, links=tuple(link_plans),
                        source_top_level_m=float(top), source_low_level_m=float(low),
                        total_flow_m3s=total, density=float(rho), kinematic_viscosity=float(nu),
                        findings=tuple(findings), sizing=sizing,
                        mode="design" if sizing is not None else "check",
                        single_size_cost=single if np.isfinite(single) else None,
-                       link_flow_m3s=tuple(float(x) for x in total_in))
+                       link_flow_m3s=tuple(float(x) for x in total_in)))
 
 
 def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allowed_k, cand,
@@ -587,3 +600,39 @@ def as_line_plan(plan: NetworkPlan, link_ids: list[int]):
                 stretches=tuple(stretches), features=tuple(features), sizing=plan.sizing,
                 single_size_cost=plan.single_size_cost,
                 required_pressure_m=np.concatenate(required))
+
+
+def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
+    """The DEM-error Monte Carlo along every path from the source to a branch end.
+
+    Each path is simulated on its own (the error along shared links is then drawn
+    again for each path, which leaves each path's probabilities exact); an outlet's
+    figures are those of the first path through it.
+    """
+    from dataclasses import replace
+
+    from .plan import uncertainty_findings
+    from .uncertainty import error_model, line_uncertainty
+
+    sc = plan.scenario
+    spec = sc.uncertainty
+    if not spec.enabled:
+        return plan
+    model = error_model(spec.product, spec.sigma_m, spec.correlation_m)
+    ends = [k for k in range(len(plan.links)) if not any(lk.parent == k for lk in plan.links)]
+    out, found, seen = [], list(plan.findings), {f.message for f in plan.findings}
+    for k in ends:
+        ids = plan.path(k)
+        path = as_line_plan(plan, ids)
+        u = line_uncertainty(path, model, realisations=spec.realisations, seed=spec.seed,
+                             source_moves=sc.source.top_level_m is None)
+        name = " > ".join(dict.fromkeys(plan.links[i].name for i in ids))
+        out.append((name, u))
+        for f in uncertainty_findings(u):
+            if f.code == "dem-uncertainty" and f.severity == "note":
+                f = Finding(f.severity, f.code, f"path {name}: {f.message}", f.remedy)
+            if f.message not in seen:
+                seen.add(f.message)
+                found.append(f)
+    found.sort(key=lambda f: (SEVERITY_ORDER[f.severity], f.message))
+    return replace(plan, uncertainty=tuple(out), findings=tuple(found))

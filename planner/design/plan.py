@@ -24,7 +24,7 @@ from shapely.geometry import LineString, Point
 from ..catalogue.pipes import PipeOption, load_options
 from ..catalogue.standards import temperature_factor
 from ..errors import DesignError, InputError
-from ..geo.profile import Profile, profile_from_survey, sample_profile, split_profile
+from ..geo.profile import Profile, pin_profile, profile_from_survey, sample_profile, split_profile
 from ..geo.route import WGS84, Survey, read_route
 from ..hydraulics import friction as fr
 from ..hydraulics import surge as sg
@@ -33,13 +33,17 @@ from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, line_ener
 from ..scenario import Scenario
 from ..units import G
 from .checks import (Finding, _where, check_line, check_outlet, check_surge, check_tank,
-                     check_yield, stretches as runs)
+                     check_yield, gravity_reachable, stretches as runs)
 from .features import Feature, place_features
+from .uncertainty import Uncertainty, error_model, line_uncertainty
 from .sizing import (SizingProblem, SizingResult, best_single_size, solve_sizing,
                      solve_whole_pieces)
 from .tanks import TankSite, place_tanks
 
 SEVERITY_ORDER = {"error": 0, "warning": 1, "note": 2}
+#: A limit is warned about when DEM error breaks it in more than this share of the
+#: realisations (common practice for a planning-stage check: 1 in 10).
+PROBABILITY_WARN = 0.10
 
 
 @dataclass(frozen=True)
@@ -122,6 +126,7 @@ class Plan:
     single_size_cost: float | None = None
     required_pressure_m: NDArray[np.float64] | None = None
     binding_chainages_m: tuple[float, ...] = field(default=())
+    uncertainty: Uncertainty | None = None
 
     @property
     def errors(self) -> list[Finding]:
@@ -250,6 +255,10 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     cr = sc.criteria
     prof = profile if profile is not None else build_profile(sc, dem)
     tol = cr.snap_tolerance_m
+    if sc.survey_points and not prof.pins:
+        prof = pin_profile(prof, [(sp.name, _chainage_of(prof, f"survey_points[{i}]", sp.chainage_m,
+                                                         sp.location, tol), sp.elevation_m)
+                                  for i, sp in enumerate(sc.survey_points, start=1)])
     ch = prof.chainage_m
     n = prof.n
 
@@ -276,6 +285,10 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     point_k = np.zeros(n)
     for i, f in enumerate(sc.fittings, start=1):
         point_k[prof.index_at(_chainage_of(prof, f"fittings[{i}]", f.chainage_m, None, tol))] += f.k
+    impossible = gravity_reachable(top, float(prof.pipe_m[0]), [
+        (o.name, float(ch[j]), float(prof.ground_m[j])) for o, j in placed])
+    if impossible:
+        raise DesignError("no gravity flow is possible:\n  - " + "\n  - ".join(impossible))
 
     # -- design flows by mass balance along the line; water properties
     flows = segment_flows(ch, [(float(ch[j]), o.flow_m3s) for o, j in placed])
@@ -441,7 +454,7 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     findings += [Finding("note", "profile", note) for note in prof.notes]
     findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity],
                                  f.chainage_m if f.chainage_m is not None else -1.0))
-    return Plan(scenario=sc, profile=refined, energy=energy, outlets=outlets, tanks=tanks,
+    plan = Plan(scenario=sc, profile=refined, energy=energy, outlets=outlets, tanks=tanks,
                 source_top_level_m=float(top), source_low_level_m=float(low),
                 total_flow_m3s=total, density=float(rho), kinematic_viscosity=float(nu),
                 rating_head_m=pt_rating, findings=tuple(findings),
@@ -449,6 +462,64 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                 features=tuple(features), sizing=sizing, single_size_cost=single_cost,
                 required_pressure_m=req_r,
                 binding_chainages_m=tuple(float(ch[i]) for i in sizing.binding) if sizing else ())
+    return with_uncertainty(plan)
+
+
+def with_uncertainty(plan: Plan) -> Plan:
+    """The plan with the DEM-error Monte Carlo and its findings (when it applies)."""
+    from dataclasses import replace
+
+    sc = plan.scenario
+    spec = sc.uncertainty
+    if not spec.enabled or (sc.terrain is None and spec.sigma_m is None):
+        return plan
+    model = error_model(spec.product, spec.sigma_m, spec.correlation_m)
+    if sc.terrain is None:
+        model = replace(model, product="survey", source=f"given in the scenario (sigma {spec.sigma_m:g} m)")
+    u = line_uncertainty(plan, model, realisations=spec.realisations, seed=spec.seed,
+                         source_moves=sc.source.top_level_m is None,
+                         pins=[c for _, c, _ in plan.profile.pins],
+                         pin_names=tuple(n for n, _, _ in plan.profile.pins))
+    found = list(plan.findings) + uncertainty_findings(u)
+    found.sort(key=lambda f: (SEVERITY_ORDER[f.severity],
+                              f.chainage_m if f.chainage_m is not None else -1.0))
+    return replace(plan, uncertainty=u, findings=tuple(found))
+
+
+def uncertainty_findings(u: Uncertainty) -> list[Finding]:
+    """Warnings where DEM error makes a limit uncertain, and the margin to add."""
+    m = u.model
+    short = f"DEM error sigma {m.sigma_m:.1f} m"
+    basis = (f"DEM vertical error sigma {m.sigma_m:.1f} m, correlated over {m.correlation_m:,.0f} m "
+             f"({m.source}); {u.realisations:,} realisations")
+    out = []
+    for name, p, fall in u.outlets:
+        if p > PROBABILITY_WARN:
+            out.append(Finding("warning", "dem-uncertainty",
+                               f"outlet {name!r}: {p:.0%} chance that the residual pressure falls "
+                               f"below its minimum ({short})",
+                               f"survey the levels of the source, tanks and this outlet, or add "
+                               f"{fall:.1f} m to its minimum pressure"))
+    for chainage, p in u.crests:
+        if p > PROBABILITY_WARN:
+            out.append(Finding("warning", "dem-uncertainty",
+                               f"crest at chainage {chainage:,.0f} m: {p:.0%} chance that it rises "
+                               f"above the hydraulic grade line ({short})",
+                               "survey this crest; lower the pipe or re-route if it is confirmed",
+                               chainage, chainage))
+    for a, b, label, p in u.stretches:
+        if p > PROBABILITY_WARN:
+            out.append(Finding("warning", "dem-uncertainty",
+                               f"{label} from {a:,.0f} to {b:,.0f} m: {p:.0%} chance that the static "
+                               f"pressure exceeds its rating somewhere ({short})",
+                               "use the next pressure class there, or survey the low points", a, b))
+    out.append(Finding("note", "dem-uncertainty",
+                       f"with {basis}: {u.p_any_outlet_short:.0%} chance that some outlet is "
+                       f"short of its minimum pressure; to be 95 % sure, add {u.margin_m:.1f} m to "
+                       f"outlet minimum pressures and allow {u.static_margin_m:.1f} m more static "
+                       "pressure than the DEM gives",
+                       "a field survey of the line's levels removes most of this uncertainty"))
+    return out
 
 
 def _exact_energy(prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr):

@@ -86,6 +86,12 @@ class Profile:
     #: True at points inserted where the pipe changes size (ground linear between
     #: the neighbouring profile points); None when there are none.
     inserted: NDArray[np.bool_] | None = None
+    #: Surveyed points the ground was pinned to: (name, chainage [m], DEM offset [m]).
+    pins: tuple[tuple[str, float, float], ...] = ()
+    #: GPS elevation minus DEM ground at the route's vertices [m], and their chainages
+    #: [m], when the route file carries elevations (GPX); None otherwise.
+    gps_offset_m: NDArray[np.float64] | None = None
+    gps_chainage_m: NDArray[np.float64] | None = None
 
     @property
     def length_m(self) -> float:
@@ -234,9 +240,41 @@ def sample_profile(route, dem, spacing_m: float | None = None, cover_m: float = 
             grid.close()
 
 
+def _dem_name(grid: Dem) -> str:
+    return grid.paths[0].name if len(grid.paths) == 1 else f"tiles ({grid.paths[0].name}, ...)"
+
+
+def _check_overlap(r: Route, grid: Dem, lonv: NDArray, latv: NDArray) -> None:
+    """Refuse a route with no vertex on the DEM, saying if swapping lon and lat would fit."""
+    left, bottom, right, top = grid.bounds
+    to_dem = Transformer.from_crs(WGS84, grid.crs, always_xy=True)
+
+    def inside(lon, lat):
+        with np.errstate(all="ignore"):
+            x, y = to_dem.transform(lon, lat)
+        x, y = np.asarray(x), np.asarray(y)
+        return (x >= left) & (x <= right) & (y >= bottom) & (y <= top)
+
+    if np.any(inside(lonv, latv)):
+        return
+    back = Transformer.from_crs(grid.crs, WGS84, always_xy=True)
+    lo, la = back.transform([left, right, right, left], [bottom, bottom, top, top])
+    where = (f"the DEM {_dem_name(grid)} covers lon {min(lo):.4f} to {max(lo):.4f}, "
+             f"lat {min(la):.4f} to {max(la):.4f}")
+    if np.all(np.abs(lonv) <= 90) and np.any(inside(latv, lonv)):
+        raise TerrainError(
+            f"{r.source}: the route lies outside the DEM, but would lie on it with latitude and "
+            f"longitude swapped ({where}); write coordinates as [longitude, latitude]")
+    raise TerrainError(
+        f"{r.source}: the route lies wholly outside the DEM (it starts at lon {lonv[0]:.6f}, "
+        f"lat {latv[0]:.6f}; {where}); check that the route and the DEM are of the same place")
+
+
 def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum) -> Profile:
     lonv, latv = (np.asarray(c, dtype=float) for c in r.line.xy)
+    _check_overlap(r, grid, lonv, latv)
     notes: list[str] = []
+    kept = None
     rx, ry = grid.resolution
     if grid.is_geographic:
         cell_m = min(rx * 111_320.0 * np.cos(np.radians(np.mean(latv))), ry * 110_574.0)
@@ -259,6 +297,7 @@ def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum)
         keep = np.ones(xv.size, dtype=bool)
         keep[1:] = np.hypot(np.diff(xv), np.diff(yv)) > 0
         xv, yv = np.asarray(xv)[keep], np.asarray(yv)[keep]
+        kept = keep
         dx, dy, chain, vidx = _densify_planar(xv, yv, spacing / unit)
         chain = chain * unit
         lon, lat = Transformer.from_crs(grid.crs, WGS84, always_xy=True).transform(dx, dy)
@@ -277,12 +316,27 @@ def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum)
         out = np.flatnonzero(outside)
         first, last = int(out[0]), int(out[-1])
         raise TerrainError(
-            f"{r.source}: the route leaves the DEM {grid.paths[0].name if len(grid.paths) == 1 else 'tiles'}"
+            f"{r.source}: the route leaves the DEM {_dem_name(grid)}"
             f" between chainage {chain[first]:,.0f} and {chain[last]:,.0f} m (first point off "
             f"the DEM at lon {lon[first]:.6f}, lat {lat[first]:.6f}); extend the DEM or "
             "re-route")
+    if not np.any(np.isfinite(ground)):
+        raise TerrainError(
+            f"{', '.join(str(p) for p in grid.paths)}: the DEM holds only nodata along the route "
+            f"{r.source} (0 to {chain[-1]:,.0f} m); check the DEM's nodata value, or use a DEM "
+            "with elevations there")
     ground, filled, void_notes = _fill_voids(chain, ground, max_void_m, r.source)
     notes.extend(void_notes)
+    gps_off = gps_ch = None
+    if r.gps_elevation_m is not None:
+        gps = np.asarray(r.gps_elevation_m, dtype=float)
+        if kept is not None:
+            gps = gps[kept]
+        if gps.size == vidx.size:
+            ok = np.isfinite(gps)
+            gps_off = (gps - ground[vidx])[ok]
+            gps_ch = chain[vidx][ok]
+            notes.append(gps_comparison_note(gps_off))
     pipe = ground - cover_m
     return Profile(
         chainage_m=chain, slope_length_m=_slope_length(chain, pipe), x=np.asarray(x, float),
@@ -291,6 +345,7 @@ def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum)
         crs=work.to_string(), spacing_m=spacing, cover_m=cover_m,
         elevation_source=f"DEM {grid.describe()}, bilinear",
         vertical_datum=vertical_datum or "as the DEM (not stated)", notes=tuple(notes),
+        gps_offset_m=gps_off, gps_chainage_m=gps_ch,
     )
 
 
@@ -353,3 +408,84 @@ def split_profile(profile: Profile, chainages) -> tuple[Profile, NDArray[np.int6
         spacing_m=profile.spacing_m, cover_m=profile.cover_m,
         elevation_source=profile.elevation_source, vertical_datum=profile.vertical_datum,
         notes=profile.notes, inserted=~np.isin(merged, ch)), origin
+
+
+#: Offsets of GPS heights from the DEM beyond which the two disagree more than either's
+#: usual error [m] (consumer GPS heights: about +-10 to 20 m; common practice, from memory).
+GPS_MEAN_LIMIT_M = 10.0
+
+
+def gps_comparison_note(offset: NDArray) -> str:
+    """One sentence on GPS heights against the DEM (offset = GPS minus DEM, [m])."""
+    off = np.asarray(offset, dtype=float)
+    if off.size == 0:
+        return "the route's GPS heights could not be compared with the DEM"
+    rms = float(np.sqrt(np.mean(off ** 2)))
+    text = (f"GPS heights of the route's {off.size} vertices minus the DEM: mean {off.mean():+.1f} m, "
+            f"standard deviation {off.std():.1f} m, RMS {rms:.1f} m, largest {off[np.argmax(np.abs(off))]:+.1f} m")
+    if abs(float(off.mean())) > GPS_MEAN_LIMIT_M:
+        text += ("; that mean offset is larger than either usually errs: check the vertical datums "
+                 "(a receiver may log ellipsoidal heights, tens of metres from a geoid-based DEM) "
+                 "and pin surveyed levels ([[survey_points]])")
+    else:
+        text += "; the profile uses the DEM (pin surveyed levels with [[survey_points]])"
+    return text
+
+
+def pin_profile(profile: Profile, pins: list[tuple[str, float, float]]) -> Profile:
+    """Shift the ground to surveyed levels: exact at each pin, linear between, flat beyond.
+
+    Parameters
+    ----------
+    profile : Profile
+    pins : list of (name, chainage [m], surveyed ground elevation [m])
+
+    Returns
+    -------
+    Profile
+        Ground and pipe moved by the interpolated offset (survey minus DEM); the
+        elevation source says so, and ``pins`` lists (name, chainage, offset).
+    """
+    if not pins:
+        return profile
+    from dataclasses import replace
+
+    pins = sorted(pins, key=lambda p: p[1])
+    ch = profile.chainage_m
+    at = np.array([p[1] for p in pins], dtype=float)
+    if np.any(np.diff(at) <= 0):
+        raise InputError("survey_points: two points at the same chainage; keep one")
+    offs = np.array([p[2] for p in pins]) - np.interp(at, ch, profile.ground_m)
+    shift = np.interp(ch, at, offs)
+    ground = profile.ground_m + shift
+    pipe = ground - profile.cover_m
+    names = ", ".join(f"{n} ({o:+.2f} m at {c:,.0f} m)" for (n, c, _), o in zip(pins, offs))
+    return replace(profile, ground_m=ground, pipe_m=pipe,
+                   slope_length_m=_slope_length(ch, pipe),
+                   elevation_source=f"{profile.elevation_source}, pinned to surveyed levels: {names}",
+                   pins=tuple((n, float(c), float(o)) for (n, c, _), o in zip(pins, offs)),
+                   notes=profile.notes + (f"ground shifted to {len(pins)} surveyed level(s) "
+                                          f"(linear between them, flat beyond): {names}",))
+
+
+def elevation_source_between(profile: Profile, a: float, b: float) -> str:
+    """Which elevations a stretch from chainage ``a`` to ``b`` [m] uses, in words."""
+    base = "DEM" if profile.elevation_source.startswith("DEM") else profile.elevation_source
+    if not profile.pins:
+        return base
+    pins = profile.pins
+    inside = [p for p in pins if a - 1e-6 <= p[1] <= b + 1e-6]
+    before = [p for p in pins if p[1] < a]
+    after = [p for p in pins if p[1] > b]
+    if before and after:
+        lo, hi = before[-1], after[0]
+        text = f"DEM corrected between surveyed {lo[0]!r} and {hi[0]!r}"
+    elif before:
+        text = f"DEM shifted by surveyed {before[-1][0]!r} ({before[-1][2]:+.2f} m)"
+    elif after:
+        text = f"DEM shifted by surveyed {after[0][0]!r} ({after[0][2]:+.2f} m)"
+    else:
+        text = "DEM corrected by surveyed levels"
+    if inside:
+        text += "; surveyed at " + ", ".join(repr(p[0]) for p in inside)
+    return text

@@ -27,6 +27,10 @@ from ..errors import InputFileError, TerrainError, TerrainWarning
 VIRTUAL_BLOCK = 256
 
 
+#: Band unit names that mean feet (GDAL writes what the producer gave).
+FEET = {"ft", "foot", "feet", "us-ft", "us_survey_foot", "us survey foot", "ftus", "international foot"}
+
+
 @dataclass
 class _Sampled:
     value: NDArray[np.float64]      # NaN where void or not interior
@@ -65,6 +69,13 @@ class Dem:
                 if ds.crs != first.crs:
                     raise TerrainError(f"{p}: CRS {ds.crs} differs from {self.paths[0]} "
                                        f"({first.crs}); reproject the tiles to one CRS")
+                unit = (ds.units[0] if ds.units else "") or ""
+                if unit.strip().lower() in FEET:
+                    raise TerrainError(
+                        f"{p}: the DEM's elevations are in feet (band unit {unit!r}); gravplan "
+                        "works in metres: convert it, e.g. `gdal_calc.py -A FILE --calc=A*0.3048 "
+                        "--outfile=dem_m.tif` (0.3048 m per international foot; 1200/3937 m "
+                        "per US survey foot)")
                 if ds.width < 2 or ds.height < 2:
                     raise TerrainError(f"{p}: the DEM must be at least 2 x 2 pixels")
                 if ds.transform.b != 0 or ds.transform.d != 0:

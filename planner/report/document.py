@@ -50,6 +50,58 @@ def _img(path: Path) -> str:
     return f"<img alt='{html.escape(path.name)}' src='data:image/png;base64,{data}'>"
 
 
+def _uncertainty_html(data: dict) -> list[str]:
+    """The section on DEM error and the elevations used (plan.json's uncertainty, elevations)."""
+    esc = html.escape
+    u = data.get("uncertainty")
+    runs = u if isinstance(u, list) else ([dict(path="the line", **u)] if u else [])
+    parts = []
+    if runs:
+        m = runs[0]["model"]
+        parts.append(
+            "<h2>How sure: DEM vertical error</h2>"
+            f"<p>Elevation error modelled as Gaussian, standard deviation {m['sigma_m']} m, "
+            f"correlated exponentially over {m['correlation_length_m']} m along the line "
+            f"({esc(m['source'])}); {runs[0]['realisations']:,} realisations, seed "
+            f"{runs[0]['seed']}. Pipes and flows are as designed; each realisation moves the "
+            "ground, the source (unless its levels are absolute) and every tank.</p>")
+        for r in runs:
+            if len(runs) > 1:
+                parts.append(f"<h3>Path {esc(r['path'])}</h3>")
+            parts.append(f"<p>Chance that some outlet is short of its minimum pressure: "
+                         f"<b>{r['p_any_outlet_below_minimum']:.0%}</b>. Recommended margins: add "
+                         f"<b>{r['recommended_outlet_margin_m']} m</b> to outlet minimum pressures, "
+                         f"and allow {r['recommended_static_margin_m']} m more static pressure.</p>")
+            parts.append(_table(["outlet", "P(residual below minimum)", "95 % fall of the residual [m]"],
+                                [[o["name"], f"{o['p_below_minimum']:.1%}", o["residual_fall_95_m"]]
+                                 for o in r["outlets"]]))
+            risky = [c for c in r["crests"] if c["p_above_hgl"] > 0]
+            if risky:
+                parts.append(_table(["crest (air valve) chainage [m]", "P(above the HGL)"],
+                                    [[c["chainage_m"], f"{c['p_above_hgl']:.1%}"] for c in risky]))
+            over = [st for st in r["stretches"] if st["p_static_over_rating"] > 0]
+            if over:
+                parts.append(_table(["from [m]", "to [m]", "pipe", "P(static above rating)"],
+                                    [[st["from_chainage_m"], st["to_chainage_m"], st["label"],
+                                      f"{st['p_static_over_rating']:.1%}"] for st in over]))
+    ev = data.get("elevations")
+    if ev:
+        parts.append("<h2>Elevations used</h2>" + f"<p>{esc(ev['source'])}</p>")
+        if ev["pins"]:
+            parts.append(_table(["surveyed point", "chainage [m]", "DEM offset [m]"],
+                                [[p["name"], p["chainage_m"], p["offset_m"]] for p in ev["pins"]]))
+        g = ev.get("gps_comparison")
+        if g:
+            parts.append(f"<p>GPS heights minus DEM at {g['vertices']} vertices: mean "
+                         f"{g['mean_offset_m']} m, standard deviation {g['sd_offset_m']} m, "
+                         f"largest {g['max_abs_offset_m']} m.</p>")
+        if ev["by_stretch"] and ev["pins"]:
+            parts.append(_table(["from [m]", "to [m]", "elevation source"],
+                                [[b["from_chainage_m"], b["to_chainage_m"], b["elevation_source"]]
+                                 for b in ev["by_stretch"]]))
+    return parts
+
+
 def report_html(data: dict, drawings: list[Path], bill_rows: list[list]) -> str:
     """The report page from plan.json's data, the drawings and the bill of quantities."""
     esc = html.escape
@@ -101,6 +153,7 @@ def report_html(data: dict, drawings: list[Path], bill_rows: list[list]) -> str:
             parts.append(_table(["valve", "chainage [m]", "size [mm]", "rule", "source"],
                                 [[f["kind"].replace("_", " "), f["chainage_m"], f["size_mm"],
                                   f["rule"], f["source"]] for f in lk["features"]]))
+    parts += _uncertainty_html(data)
     if data.get("sizing"):
         z = data["sizing"]
         parts.append(f"<p>Sizing: {esc(z['method'])}, cost {z['objective']}, "

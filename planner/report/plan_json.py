@@ -172,9 +172,54 @@ def plan_to_dict(plan: Plan) -> dict:
             "severity": f.severity, "code": f.code, "chainage_m": _f(f.chainage_m, 2),
             "chainage_end_m": _f(f.chainage_end_m, 2), "message": f.message, "remedy": f.remedy,
         } for f in plan.findings],
+        "uncertainty": uncertainty_to_dict(plan.uncertainty),
+        "elevations": elevations_to_dict(prof, plan.stretches),
         "cautions": list(CAUTIONS),
         "points": points,
     }
+
+
+def uncertainty_to_dict(u) -> dict | None:
+    """The DEM-error Monte Carlo: model, probabilities per outlet, crest and stretch."""
+    if u is None:
+        return None
+    m = u.model
+    return {
+        "model": {"product": m.product, "sigma_m": _f(m.sigma_m, 3),
+                  "correlation_length_m": _f(m.correlation_m, 1), "source": m.source,
+                  "correlation": "exponential along the chainage"},
+        "realisations": u.realisations, "seed": u.seed,
+        "pinned_to": list(u.pinned),
+        "p_any_outlet_below_minimum": _f(u.p_any_outlet_short, 4),
+        "recommended_outlet_margin_m": _f(u.margin_m, 2),
+        "recommended_static_margin_m": _f(u.static_margin_m, 2),
+        "outlets": [{"name": n, "p_below_minimum": _f(p, 4), "residual_fall_95_m": _f(fall, 2)}
+                    for n, p, fall in u.outlets],
+        "crests": [{"chainage_m": _f(c, 2), "p_above_hgl": _f(p, 4)} for c, p in u.crests],
+        "stretches": [{"from_chainage_m": _f(a, 2), "to_chainage_m": _f(b, 2), "label": lab,
+                       "p_static_over_rating": _f(p, 4)} for a, b, lab, p in u.stretches],
+    }
+
+
+def elevations_to_dict(prof, stretches) -> dict:
+    """Where the elevations come from: DEM, pins to surveyed levels, GPS comparison."""
+    from ..geo.profile import elevation_source_between
+
+    gps = None
+    if prof.gps_offset_m is not None and prof.gps_offset_m.size:
+        off = prof.gps_offset_m
+        gps = {"vertices": int(off.size), "mean_offset_m": _f(float(off.mean()), 2),
+               "sd_offset_m": _f(float(off.std()), 2),
+               "rms_offset_m": _f(float(np.sqrt(np.mean(off ** 2))), 2),
+               "max_abs_offset_m": _f(float(np.max(np.abs(off))), 2),
+               "offsets": [{"chainage_m": _f(c, 2), "gps_minus_dem_m": _f(o, 2)}
+                           for c, o in zip(prof.gps_chainage_m, off)]}
+    return {"source": prof.elevation_source,
+            "pins": [{"name": n, "chainage_m": _f(c, 2), "offset_m": _f(o, 3)} for n, c, o in prof.pins],
+            "gps_comparison": gps,
+            "by_stretch": [{"from_chainage_m": _f(st.chainage_m, 2), "to_chainage_m": _f(st.chainage_end_m, 2),
+                            "elevation_source": elevation_source_between(prof, st.chainage_m, st.chainage_end_m)}
+                           for st in stretches]}
 
 
 def write_plan_json(plan: Plan, path: str | Path) -> Path:
@@ -207,8 +252,9 @@ def network_to_dict(plan, link_plans, drawings) -> dict:
         "variables": s.variables, "constraints": s.constraints,
         "cheapest_single_size_cost": _f(plan.single_size_cost, 2)
         if plan.single_size_cost is not None else None}
+    uncertainty = [{"path": name, **uncertainty_to_dict(u)} for name, u in plan.uncertainty]
     return {
-        "schema": NETWORK_SCHEMA, "mode": plan.mode,
+        "schema": NETWORK_SCHEMA, "mode": plan.mode, "uncertainty": uncertainty,
         "tool": first["tool"], "project": first["project"], "inputs": first["inputs"],
         "water": first["water"], "source": first["source"],
         "summary": {

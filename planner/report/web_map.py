@@ -116,7 +116,7 @@ def contour_lines(grid: np.ndarray, transform, crs, *, target: int = 25):
         plt.close(fig)
 
 
-def build_map(plan, *, terrain=None, title: str | None = None):
+def build_map(plan, *, terrain=None, title: str | None = None, outlet_risk=None):
     """The folium Map of a plan, or of several line plans (the links of a tree).
 
     Parameters
@@ -128,11 +128,17 @@ def build_map(plan, *, terrain=None, title: str | None = None):
         :func:`planner.geo.terrain.read_overview`.
     title : str, optional
         Heading of the page (default: the first plan's project name).
+    outlet_risk : dict, optional
+        Outlet name -> (probability below its minimum, 95 % fall [m]) from the DEM-error
+        Monte Carlo; default the plan's own.
     """
     import branca.colormap as cm
     import folium
 
     plans = list(plan) if isinstance(plan, (list, tuple)) else [plan]
+    if outlet_risk is None:
+        outlet_risk = {n: (p, f) for pl in plans if pl.uncertainty is not None
+                       for n, p, f in pl.uncertainty.outlets}
     for pl in plans:
         if not np.all(np.isfinite(pl.profile.lat)):
             raise ValueError("the line has no coordinates to map")
@@ -197,9 +203,12 @@ def build_map(plan, *, terrain=None, title: str | None = None):
                    f"{t.chainage_m:,.0f} m<br>water level {t.water_level_m:.1f} m<br>head "
                    f"dissipated {t.dissipated_m:.1f} m<br>{esc(t.rule)}", "#ffffff")
         for o in pl.outlets:
+            risk = outlet_risk.get(o.name)
             marker(o.index, o.name, f"<b>{esc(o.name)}</b> ({esc(o.kind)})<br>chainage "
                    f"{o.chainage_m:,.0f} m<br>flow {o.flow_m3s * 1e3:.2f} L/s<br>residual pressure "
-                   f"{o.pressure_head_m:.1f} m (min {o.min_pressure_m:g} m)",
+                   f"{o.pressure_head_m:.1f} m (min {o.min_pressure_m:g} m)"
+                   + (f"<br>DEM error: {risk[0]:.0%} chance of less than the minimum; add "
+                      f"{risk[1]:.1f} m to be 95 % sure" if risk else ""),
                    "#2e8b57" if o.ok else "#c0392b")
         for f in pl.features:
             kind = f.kind.replace("_", " ")
@@ -240,7 +249,8 @@ def build_map(plan, *, terrain=None, title: str | None = None):
     return m
 
 
-def write_map(plan, path: str | Path, *, terrain=None, title: str | None = None) -> Path:
+def write_map(plan, path: str | Path, *, terrain=None, title: str | None = None,
+              outlet_risk=None) -> Path:
     """Write map.html atomically (one plan, or a list of link plans)."""
-    m = build_map(plan, terrain=terrain, title=title)
+    m = build_map(plan, terrain=terrain, title=title, outlet_risk=outlet_risk)
     return write_text(path, make_offline(m.get_root().render()))

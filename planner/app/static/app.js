@@ -253,7 +253,8 @@
   // ---- live re-planning ------------------------------------------------------------
   var busy = false, pending = false, seq = 0;
   window.gp = {map: map, drawn: drawn, getDrawing: getDrawing, setDrawing: function (fc) { setDrawing(fc); remember(); changed(false); },
-               last: null, requests: 0, history: function () { return history.slice(0, at + 1); }, elevationAt: elevationAt};
+               last: null, requests: 0, history: function () { return history.slice(0, at + 1); }, elevationAt: elevationAt,
+               idle: function () { return !busy && !pending; }};
   function showError(text) {
     var box = $("error");
     box.hidden = !text;
@@ -339,7 +340,7 @@
   var SHAPE = {air_valve: ["#ffffff", 5], washout: ["#33a02c", 5], break_pressure_tank: ["#6a3d9a", 7], outlet: ["#ff7f00", 7]};
 
   function render(res, mine) {
-    if (mine !== seq && pending) return;            // a newer edit is on its way
+    if (pending || mine !== seq) return;            // stale: a newer drawing is on its way
     window.gp.last = res;
     window.gp.requests += 1;
     if (!res.ok) {
