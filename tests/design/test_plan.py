@@ -7,12 +7,7 @@ from planner.design.plan import plan_scenario
 from planner.errors import InputError
 from planner.scenario import load_scenario
 from tests.conftest import E0, N0, lonlat, write_raster
-
-
-def ramp(h=100, w=400, z0=1200.0, fall=0.04, cell=10.0):
-    """Ground falling eastwards by ``fall`` m per m."""
-    u = (np.arange(w) + 0.5) * cell
-    return np.tile(z0 - fall * u, (h, 1))
+from tests.design.conftest import ramp
 
 
 def scenario(tmp_path, *, route="route.geojson", extra="", pipe=None, outlets=None,
@@ -40,13 +35,6 @@ file = "{route}"
     p = tmp_path / "s.toml"
     p.write_text(text)
     return p
-
-
-@pytest.fixture
-def ramp_site(tmp_path, write_geojson):
-    write_raster(tmp_path / "dem.tif", ramp(), top=N0 + 1000)
-    write_geojson([(E0 + 100, N0 + 500), (E0 + 3600, N0 + 500)])
-    return tmp_path
 
 
 def test_uniform_ramp_plan(ramp_site):

@@ -21,7 +21,7 @@ from planner.design.uncertainty import (Z90, correlated_errors, error_model,
 from planner.geo.profile import elevation_source_between, pin_profile
 from planner.scenario import load_scenario
 from tests.conftest import E0, N0, lonlat
-from tests.design.test_plan import ramp_site, scenario  # noqa: F401  (fixture)
+from tests.design.test_plan import scenario
 
 
 def test_le90_to_sigma():
