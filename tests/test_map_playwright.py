@@ -63,3 +63,39 @@ def test_popup_and_screenshot(page, tmp_path):
     pg.screenshot(path=str(shot))
     img = mpimg.imread(shot)[..., :3]
     assert img.std() > 0.05
+
+
+def test_markup_in_names_is_shown_as_text(demo_folder, tmp_path):
+    """A project and an outlet named with markup appear as text in the map and the report."""
+    evil = 'Orun <img src=x onerror="window.pwned=1"> <b>fields</b>'
+    text = (demo_folder / "scenario_given_pipe.toml").read_text()
+    text = text.replace('name = "Varo spring - Tamsel - Orun fields gravity main (demo)"',
+                        f"name = '{evil}'").replace('name = "Orun fields hydrant"', f"name = '{evil}'")
+    text = text.replace('dem = "dem.tif"', f'dem = "{(demo_folder / "dem.tif").as_posix()}"')
+    text = text.replace('file = "route.geojson"', f'file = "{(demo_folder / "route.geojson").as_posix()}"')
+    (tmp_path / "s.toml").write_text(text)
+    out = tmp_path / "out"
+    res = CliRunner().invoke(main, ["plan", str(tmp_path / "s.toml"), "--out", str(out)])
+    assert res.exit_code in (0, 2), res.output
+    with pw.sync_playwright() as p:
+        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True,
+                                    args=[f for f in FLAGS if not f.startswith("--window")])
+        pg = browser.new_page(viewport={"width": 1200, "height": 900})
+        pg.route("**/*", lambda r: r.continue_() if r.request.url.startswith(("file:", "data:"))
+                 else r.abort())
+        pg.goto((out / "report.html").as_uri())
+        assert pg.locator("h1").inner_text() == evil
+        assert pg.title() == evil
+        assert pg.locator("img[src=x]").count() == 0 and pg.locator("h1 b").count() == 0
+        assert evil in pg.locator("body").inner_text()              # the outlet, as text
+        pg.goto((out / "map.html").as_uri())
+        pg.wait_for_selector(".leaflet-overlay-pane path")
+        assert pg.locator("img[src=x]").count() == 0
+        for k in range(pg.locator("path.plan-marker").count()):
+            pg.locator("path.plan-marker").nth(k).dispatch_event("click")
+            pg.locator(".leaflet-popup-content").last.wait_for()
+        texts = pg.locator(".leaflet-popup-content").all_inner_texts()
+        assert any(t.startswith(evil) for t in texts)          # the outlet's popup, as text
+        assert pg.locator(".leaflet-popup-content img, .leaflet-popup-content b b").count() == 0
+        assert pg.evaluate("window.pwned") is None
+        browser.close()
