@@ -57,15 +57,16 @@ def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
     """
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    terrain = _terrain_window(plan_)
     written = {
         "plan.json": write_plan_json(plan_, out / "plan.json"),
         "profile.csv": write_profile_csv(plan_.profile, out / "profile.csv"),
-        "profile.png": write_profile_png(plan_, out / "profile.png"),
     }
-    written.update(_sheets(plan_, out, "profile"))
+    # the drawing, the sheets and the map are independent: drawn side by side on spare cores
+    jobs = [("png", plan_, out, None), ("sheets", plan_, out, None)]
     if np.all(np.isfinite(plan_.profile.lat)):
-        written["map.html"] = write_map(plan_, out / "map.html", terrain=terrain)
+        jobs.append(("map", plan_, out, (_terrain_window(plan_), None, None)))
+    for part in _in_parallel(_line_part, jobs):
+        written.update(part)
     written.update(_deliverables([plan_], out, junctions=0))
     written.update(_report(out, [out / "profile.png"]))
     return written
@@ -120,6 +121,49 @@ def write_any(plan_, out_dir: str | Path) -> dict[str, Path]:
     return write_outputs(plan_, out_dir)
 
 
+def _line_part(kind: str, plan_, out: Path, arg) -> dict[str, Path]:
+    """One independent deliverable of a line: its PNG, its sheets or its map."""
+    if kind == "png":
+        return {"profile.png": write_profile_png(plan_, out / "profile.png")}
+    if kind == "sheets":
+        return _sheets(plan_, out, "profile")
+    return {"map.html": write_map(plan_, out / "map.html", terrain=arg[0])}
+
+
+def _network_part(kind: str, plans, out: Path, arg) -> dict[str, Path]:
+    """One independent deliverable of a tree: a path's PNG or sheets, or the map."""
+    if kind == "png":
+        name = f"profile_{arg}.png"
+        return {name: write_profile_png(plans, out / name)}
+    if kind == "sheets":
+        return _sheets(plans, out, f"profile_{arg}")
+    terrain, title, risk = arg
+    return {"map.html": write_map(plans, out / "map.html", terrain=terrain, title=title,
+                                  outlet_risk=risk)}
+
+
+def _in_parallel(fn, jobs: list[tuple]) -> list:
+    """``fn(*job)`` for each job, in forked processes when there are cores to spare.
+
+    Drawing is CPU-bound matplotlib work that threads cannot share; each job writes its
+    own files atomically, so a failure in one leaves no partial file behind, and the
+    error is raised here as if the job had run in this process.
+    """
+    import multiprocessing as mp
+    import os
+
+    import threading
+
+    workers = min(len(jobs), os.cpu_count() or 1)
+    # forking a process that runs other threads can copy a held lock: draw in turn then
+    if workers < 2 or "fork" not in mp.get_all_start_methods() or threading.active_count() > 1:
+        return [fn(*job) for job in jobs]
+    from concurrent.futures import ProcessPoolExecutor
+
+    with ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("fork")) as pool:
+        return list(pool.map(fn, *zip(*jobs)))
+
+
 def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
     """Write plan.json, a profile drawing per path from the source to each branch end,
     and map.html for a branched system, each file atomically."""
@@ -133,23 +177,23 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
     link_plans = [as_line_plan(plan_, [k]) for k in range(len(plan_.links))]
     written = {}
     ends = [k for k in range(len(plan_.links)) if not any(lk.parent == k for lk in plan_.links)]
-    drawings = []
+    drawings, jobs = [], []
     for k in ends:
         path_plan = as_line_plan(plan_, plan_.path(k))
         last = path_plan.outlets[-1].name if path_plan.outlets else plan_.links[k].name
         slug = re.sub(r"[^a-z0-9]+", "-", last.lower()).strip("-") or f"path-{k}"
-        name = f"profile_{slug}.png"
-        written[name] = write_profile_png(path_plan, out / name)
-        written.update(_sheets(path_plan, out, f"profile_{slug}"))
-        drawings.append({"file": name, "links": plan_.path(k), "to": last})
-    written["plan.json"] = write_network_json(plan_, link_plans, drawings, out / "plan.json")
+        jobs += [("png", path_plan, out, slug), ("sheets", path_plan, out, slug)]
+        drawings.append({"file": f"profile_{slug}.png", "links": plan_.path(k), "to": last})
     risk = {}
     for _, u in plan_.uncertainty:
         for name, p, fall in u.outlets:
             risk.setdefault(name, (p, fall))
-    written["map.html"] = write_map(link_plans, out / "map.html",
-                                    terrain=_terrain_window(link_plans),
-                                    title=plan_.scenario.project.name, outlet_risk=risk)
+    jobs.append(("map", link_plans, out, (_terrain_window(link_plans), plan_.scenario.project.name,
+                                          risk)))
+    # the drawings and the map are independent: drawn side by side on spare cores
+    for part in _in_parallel(_network_part, jobs):
+        written.update(part)
+    written["plan.json"] = write_network_json(plan_, link_plans, drawings, out / "plan.json")
     junctions = sum(1 for k in range(len(plan_.links))
                     if sum(lk.parent == k for lk in plan_.links) >= 1)
     written.update(_deliverables(link_plans, out, junctions=junctions))
