@@ -166,8 +166,14 @@
   }
 
   // ---- points (draw mode): source and outlets --------------------------------------
+  function roleIcon(m) {
+    var source = m.gp.role === "source";
+    m.setIcon(L.divIcon({className: "gp-pt " + (source ? "gp-source" : "gp-outlet"),
+                         html: source ? "S" : "T", iconSize: [20, 20], iconAnchor: [10, 10]}));
+  }
   function bindMarker(m) {
     m.on("click", function () { pointForm(m); });
+    roleIcon(m);
     var g = m.gp;
     m.bindTooltip(function () { return (m.gp.role === "source" ? "source: " : "outlet: ") + (m.gp.name || ""); });
     return g;
@@ -189,7 +195,12 @@
       }
       inp.value = m.gp[key];
       inp.name = key;
-      inp.addEventListener("input", function () { m.gp[key] = inp.value; remember(); });
+      inp.addEventListener("input", function () {
+        m.gp[key] = inp.value;
+        if (key === "role") roleIcon(m);
+        remember();
+        summaryDraw();
+      });
       lab.appendChild(inp);
       box.appendChild(lab);
     }
@@ -426,10 +437,20 @@
       }
       return s;
     }
-    svg("path", {d: d(P.ground) + "L" + X(x1) + "," + (H - m.b) + "L" + X(0) + "," + (H - m.b) + "Z", fill: "#e8dcc8", stroke: "none"}, box);
+    // the ground's fill: one polygon over the points with a value (gaps are bridged)
+    var fill = "", first = null, last = null;
+    for (var i = 0; i < P.ground.length; i++) {
+      if (P.ground[i] === null) continue;
+      fill += (first === null ? "M" : "L") + X(ch[i]).toFixed(1) + "," + Y(P.ground[i]).toFixed(1);
+      if (first === null) first = ch[i];
+      last = ch[i];
+    }
+    if (first !== null) {
+      svg("path", {d: fill + "L" + X(last) + "," + (H - m.b) + "L" + X(first) + "," + (H - m.b) + "Z", fill: "#e8dcc8", stroke: "none"}, box);
+    }
     svg("path", {id: "p-ground", d: d(P.ground), fill: "none", stroke: "#7a5c2e", "stroke-width": 1.2}, box);
     if (!LIVE) {
-      svg("text", {x: W - m.r, y: m.t + 10, "text-anchor": "end", "font-size": 10, fill: "#555"}, box).textContent =
+      svg("text", {x: W - m.r - 4, y: H - m.b - 6, "text-anchor": "end", "font-size": 10, fill: "#555"}, box).textContent =
         "ground from the display grid; gravplan plan samples the full DEM";
     }
     svg("path", {id: "p-pipe", d: d(P.pipe), fill: "none", stroke: "#222", "stroke-width": 1.4}, box);
