@@ -65,7 +65,7 @@ def test_popup_and_screenshot(page, tmp_path):
     assert img.std() > 0.05
 
 
-def test_markup_in_names_is_shown_as_text(demo_folder, tmp_path):
+def test_markup_in_names_is_shown_as_text(page, demo_folder, tmp_path):
     """A project and an outlet named with markup appear as text in the map and the report."""
     evil = 'Orun <img src=x onerror="window.pwned=1"> <b>fields</b>'
     text = (demo_folder / "scenario_given_pipe.toml").read_text()
@@ -77,10 +77,9 @@ def test_markup_in_names_is_shown_as_text(demo_folder, tmp_path):
     out = tmp_path / "out"
     res = CliRunner().invoke(main, ["plan", str(tmp_path / "s.toml"), "--out", str(out)])
     assert res.exit_code in (0, 2), res.output
-    with pw.sync_playwright() as p:
-        browser = p.chromium.launch(executable_path=CHROMIUM, headless=True,
-                                    args=[f for f in FLAGS if not f.startswith("--window")])
-        pg = browser.new_page(viewport={"width": 1200, "height": 900})
+    # one playwright per process: a new page of the module's browser
+    pg = page[0].context.browser.new_page(viewport={"width": 1200, "height": 900})
+    try:
         pg.route("**/*", lambda r: r.continue_() if r.request.url.startswith(("file:", "data:"))
                  else r.abort())
         pg.goto((out / "report.html").as_uri())
@@ -98,4 +97,5 @@ def test_markup_in_names_is_shown_as_text(demo_folder, tmp_path):
         assert any(t.startswith(evil) for t in texts)          # the outlet's popup, as text
         assert pg.locator(".leaflet-popup-content img, .leaflet-popup-content b b").count() == 0
         assert pg.evaluate("window.pwned") is None
-        browser.close()
+    finally:
+        pg.close()

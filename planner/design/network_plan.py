@@ -33,7 +33,7 @@ from ..scenario import Scenario
 from .checks import Finding, check_yield, gravity_reachable
 from .uncertainty import Uncertainty
 from .features import Feature, place_features
-from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line,
+from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line, _surge_pool,
                    _candidate_data, _cheapest_per_size, _split_points, _stretches,
                    _wave_speeds, line_findings, pipe_options, static_limit)
 from .sizing import SizingProblem, SizingResult, best_single_size, solve_sizing, solve_whole_pieces
@@ -265,9 +265,11 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
             fits = cr.surge_rating_factor * rating_head[None, :] - static[:, None] - surge
             slow = v <= cr.velocity_max_mps
             allowed.append(ok_static & (fits >= 0) & slow)
-            # segments that only surge leaves without a class: how far short they are
-            short = ~allowed[-1].any(axis=1) & (ok_static & slow).any(axis=1)
-            gaps.append(-np.max(np.where(ok_static & slow, fits, -np.inf), axis=1)[short])
+            # segments that surge leaves without a class, or only with pipes too wide to
+            # carry sediment and air: how far short they are
+            pool = _surge_pool(ok_static & slow, v, cr.velocity_min_mps)
+            short = ~(allowed[-1] & pool).any(axis=1) & pool.any(axis=1)
+            gaps.append(-np.max(np.where(pool, fits, -np.inf), axis=1)[short])
         shortfall = max((float(g.max()) for g in gaps if g.size), default=0.0)
         if shortfall <= 0 or not auto:
             break
@@ -629,7 +631,8 @@ def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
         name = " > ".join(dict.fromkeys(plan.links[i].name for i in ids))
         out.append((name, u))
         for f in uncertainty_findings(u):
-            if f.code == "dem-uncertainty" and f.severity == "note":
+            # chainages are along the path: say which; an outlet is named once
+            if not f.message.startswith("outlet "):
                 f = Finding(f.severity, f.code, f"path {name}: {f.message}", f.remedy)
             if f.message not in seen:
                 seen.add(f.message)

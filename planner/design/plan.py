@@ -322,12 +322,14 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
         statics_ok = seg_static[:, None] <= rating_head[None, :]
         fits = cr.surge_rating_factor * rating_head[None, :] - seg_static[:, None] - surge_cand
         allowed = statics_ok & (fits >= 0) & (v_cand <= cr.velocity_max_mps)
-        short = ~allowed.any(axis=1) & statics_ok.any(axis=1)
+        pool = _surge_pool(statics_ok & (v_cand <= cr.velocity_max_mps), v_cand,
+                           cr.velocity_min_mps)
+        short = ~(allowed & pool).any(axis=1) & pool.any(axis=1)
         if not sc.design.auto_tanks or not short.any():
             break
-        # surge leaves no class for some segments: lower the tanks' static limit by the shortfall
-        margin += float(np.max(-np.max(np.where(statics_ok & (v_cand <= cr.velocity_max_mps),
-                                                fits, -np.inf), axis=1)[short])) + 1.0
+        # surge leaves no class for some segments (or only pipes so wide that the water
+        # barely moves): lower the tanks' static limit by the shortfall
+        margin += float(np.max(-np.max(np.where(pool, fits, -np.inf), axis=1)[short])) + 1.0
     auto_no = 0
     tank_names = []
     for s in sites:
@@ -613,6 +615,17 @@ def static_limit(sc: Scenario, options, rating_head) -> tuple[float, str]:
             and sc.design.max_static_pressure_m < limit:
         limit, reason = sc.design.max_static_pressure_m, "design.max_static_pressure_m"
     return limit, reason
+
+
+def _surge_pool(ok: NDArray, velocity: NDArray, velocity_min: float) -> NDArray:
+    """The candidates a segment should be able to use once surge is allowed for.
+
+    Those that keep at least the self-cleansing velocity when any does (so that surge
+    near a tank's limit is met by moving the tank, not by a pipe so wide that sediment
+    settles and air stays; common practice), else every candidate within the limits.
+    """
+    band = ok & (velocity >= velocity_min)
+    return np.where(band.any(axis=1)[:, None], band, ok)
 
 
 def _tank_sites(sc, prof, options, rating_head, top, fixed, margin) -> list[TankSite]:
