@@ -26,7 +26,7 @@ from pathlib import Path
 import numpy as np
 
 from ..geo.terrain import Dem, read_overview
-from ..report.offline import ASSETS, _asset, _css_with_data_uris
+from ..report.offline import ASSETS, asset, css_with_data_uris
 
 STATIC = Path(__file__).resolve().parent / "static"
 #: Longest side of the hillshade and contour window, and of the cursor grid [pixels].
@@ -108,19 +108,19 @@ def build_page(*, mode: str, title: str, terrain: dict, drawing: dict | None = N
     data = {"mode": mode, "title": title, "terrain": terrain, "caution": CAUTION,
             "drawing": drawing or {"type": "FeatureCollection", "features": []},
             "markers": markers or [], "dem_path": dem_path}
-    leaflet_css = _css_with_data_uris(_asset("leaflet-1.9.3/leaflet.css"), ASSETS / "leaflet-1.9.3")
-    draw_css = _css_with_data_uris(_asset("leaflet-draw-1.0.4/leaflet.draw.css"),
+    leaflet_css = css_with_data_uris(asset("leaflet-1.9.3/leaflet.css"), ASSETS / "leaflet-1.9.3")
+    draw_css = css_with_data_uris(asset("leaflet-draw-1.0.4/leaflet.draw.css"),
                                    ASSETS / "leaflet-draw-1.0.4")
     icon = base64.b64encode((ASSETS / "leaflet-1.9.3/images/marker-icon.png").read_bytes()).decode()
     shadow = base64.b64encode((ASSETS / "leaflet-1.9.3/images/marker-shadow.png").read_bytes()).decode()
     scripts = "\n".join(
         "<script>" + text.replace("</script", "<\\/script") + "</script>"
-        for text in (_asset("leaflet-1.9.3/leaflet.js"),
+        for text in (asset("leaflet-1.9.3/leaflet.js"),
                      "L.Icon.Default.prototype.options.imagePath='';"
                      f"L.Icon.Default.mergeOptions({{iconUrl:'data:image/png;base64,{icon}',"
                      f"iconRetinaUrl:'data:image/png;base64,{icon}',"
                      f"shadowUrl:'data:image/png;base64,{shadow}'}});",
-                     _asset("leaflet-draw-1.0.4/leaflet.draw.js"),
+                     asset("leaflet-draw-1.0.4/leaflet.draw.js"),
                      (STATIC / "app.js").read_text(encoding="utf-8")))
     css = (STATIC / "app.css").read_text(encoding="utf-8")
     return f"""<!DOCTYPE html>

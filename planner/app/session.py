@@ -243,8 +243,7 @@ def summarise(plan) -> dict:
     sizing = plan.sizing
     return {"ok": True, "mode": plan.mode, "length_m": _fmt(length, 1),
             "cost": _fmt(plan.pipe_cost, 0) if plan.mode == "design" else None,
-            "bound": _fmt(sizing.lower_bound, 0) if sizing is not None
-            and getattr(sizing, "lower_bound", None) is not None else None,
+            "bound": _fmt(sizing.lower_bound, 0) if sizing is not None else None,
             "flow_lps": _fmt(plan.total_flow_m3s * 1e3, 2),
             "errors": sum(f.severity == "error" for f in findings),
             "warnings": sum(f.severity == "warning" for f in findings),

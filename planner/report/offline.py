@@ -32,11 +32,13 @@ _LINK = re.compile(r'<link\s+rel="stylesheet"\s+href="(https?://[^"]+)"\s*/?>')
 
 
 @lru_cache(maxsize=None)
-def _asset(name: str) -> str:
+def asset(name: str) -> str:
+    """The text of a vendored file (cached)."""
     return (ASSETS / name).read_text(encoding="utf-8")
 
 
-def _css_with_data_uris(css: str, folder: Path) -> str:
+def css_with_data_uris(css: str, folder: Path) -> str:
+    """CSS with its url() images (beside it in ``folder``) inlined as data: URIs."""
     def repl(m):
         ref = m.group(1).strip("'\"")
         path = folder / ref
@@ -68,7 +70,7 @@ def make_offline(page: str) -> str:
         url = m.group(1)
         name = _vendored(url)
         if name:
-            return "<script>" + _asset(name).replace("</script", "<\\/script") + "</script>"
+            return "<script>" + asset(name).replace("</script", "<\\/script") + "</script>"
         if any(u in url for u in UNUSED):
             return ""
         raise ValueError(f"the map page needs {url}, which is not vendored in {ASSETS}")
@@ -77,7 +79,7 @@ def make_offline(page: str) -> str:
         url = m.group(1)
         name = _vendored(url)
         if name:
-            css = _css_with_data_uris(_asset(name), (ASSETS / name).parent)
+            css = css_with_data_uris(asset(name), (ASSETS / name).parent)
             return "<style>" + css + "</style>"
         if any(u in url for u in UNUSED):
             return ""
