@@ -91,8 +91,12 @@ def load_catalogue(name_or_path: str | Path) -> list[PipeOption]:
     key = str(name_or_path).lower()
     path = DATA / BUILTIN[key] if key in BUILTIN else Path(name_or_path)
     if not path.is_file():
-        raise InputFileError(f"{name_or_path}: pipe catalogue not found (built-in catalogues: "
-                             f"{', '.join(BUILTIN)}; anything else is read as a CSV path)")
+        import difflib
+        close = difflib.get_close_matches(key, BUILTIN, n=1)
+        raise InputFileError(f"{name_or_path}: pipe catalogue not found"
+                             + (f"; did you mean {close[0]!r}?" if close else "")
+                             + f" (built-in catalogues: {', '.join(BUILTIN)}; anything else is "
+                             "read as a CSV path)")
     with path.open(encoding="utf-8", newline="") as fh:
         lines = [line for line in fh if not line.lstrip().startswith("#")]
     reader = csv.DictReader(lines)
@@ -162,5 +166,18 @@ def load_options(catalogues, **filters) -> list[PipeOption]:
         raise InputError(f"pipe label(s) {', '.join(sorted(dup))} appear in more than one catalogue")
     kept = filter_options(options, **filters)
     if not kept:
-        raise InputError(f"no pipe in {', '.join(map(str, catalogues))} matches {filters}")
+        materials = sorted({o.material for o in options})
+        sizes = sorted({o.outside_diameter * 1e3 for o in options})
+        asked = []
+        if filters.get("materials"):
+            asked.append(f"materials {', '.join(filters['materials'])}")
+        if filters.get("min_od_mm") is not None or filters.get("max_od_mm") is not None:
+            asked.append(f"outside diameters {filters.get('min_od_mm') or 0:g} to "
+                         f"{filters.get('max_od_mm') or float('inf'):g} mm")
+        if filters.get("min_rating_bar") is not None:
+            asked.append(f"ratings from PN{filters['min_rating_bar']:g}")
+        raise InputError(
+            f"no pipe in {', '.join(map(str, catalogues))} has {' and '.join(asked) or 'what was asked'}; "
+            f"those catalogues hold {', '.join(materials)} from {sizes[0]:g} to {sizes[-1]:g} mm: "
+            "check design.materials, min_size_mm and max_size_mm")
     return kept

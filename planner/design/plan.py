@@ -23,7 +23,7 @@ from shapely.geometry import LineString, Point
 
 from ..catalogue.pipes import PipeOption, load_options
 from ..catalogue.standards import temperature_factor
-from ..errors import DesignError, InputError
+from ..errors import DesignError, InputError, PlannerError
 from ..geo.profile import Profile, pin_profile, profile_from_survey, sample_profile, split_profile
 from ..geo.route import WGS84, Survey, read_route
 from ..hydraulics import friction as fr
@@ -170,7 +170,8 @@ def _chainage_of(profile: Profile, key: str, chainage: float | None, location, t
     if chainage is not None:
         if chainage > profile.length_m + tol:
             raise InputError(f"{key}.chainage_m = {chainage:,.0f} m is beyond the end of the "
-                             f"line ({profile.length_m:,.0f} m)")
+                             f"line ({profile.length_m:,.0f} m); check the chainage, or extend "
+                             "the route")
         return min(float(chainage), profile.length_m)
     if not np.all(np.isfinite(profile.x)):
         raise InputError(f"{key}: a location needs a line with coordinates; give chainage_m "
@@ -596,8 +597,11 @@ def pipe_options(sc: Scenario, rho: float) -> tuple[list[PipeOption], NDArray[np
     cr = sc.criteria
     if sc.design is not None:
         d = sc.design
-        options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
-                               max_od_mm=d.max_size_mm)
+        try:
+            options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
+                                   max_od_mm=d.max_size_mm)
+        except PlannerError as exc:
+            raise type(exc)(f"{sc.path.name}, design.catalogues: {exc}") from None
     else:
         options = [_given_pipe(sc)]
     try:

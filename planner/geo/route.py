@@ -100,7 +100,8 @@ def route_from_line(line: LineString, source: str = "<memory>") -> Route:
 def _check_lonlat(xy: NDArray, source: str) -> None:
     if xy.size == 0 or not np.all(np.isfinite(xy)):
         bad = int(np.argmax(~np.all(np.isfinite(xy), axis=1))) if xy.size else 0
-        raise InputError(f"{source}: vertex {bad + 1} has a missing or non-numeric coordinate")
+        raise InputError(f"{source}: vertex {bad + 1} has a missing or non-numeric coordinate; "
+                         "fix or delete that vertex")
     bad = np.flatnonzero((np.abs(xy[:, 0]) > 180) | (np.abs(xy[:, 1]) > 90))
     if bad.size:
         i = int(bad[0])
@@ -163,7 +164,9 @@ def _read_vector(p: Path, kind: str) -> Route:
     if kind == "GPX" and geoms:
         elevations = _gpx_elevations(p, used)
     if not geoms:
-        raise InputFileError(f"{p}: the {kind} file holds no line geometry")
+        raise InputFileError(f"{p}: the {kind} file holds no line geometry; a route is a line "
+                             "(a track or route in GPX, a LineString in GeoJSON or KML), not "
+                             "only points")
     lines = []
     for g in geoms:
         if g.geom_type in ("LineString", "MultiLineString"):
