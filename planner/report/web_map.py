@@ -210,16 +210,20 @@ def build_map(plan, *, terrain=None, title: str | None = None, outlet_risk=None)
                    + (f"<br>DEM error: {risk[0]:.0%} chance of less than the minimum; add "
                       f"{risk[1]:.1f} m to be 95 % sure" if risk else ""),
                    "#2e8b57" if o.ok else "#c0392b")
+        crest_risk = dict(pl.uncertainty.crests) if pl.uncertainty is not None else {}
         for f in pl.features:
             kind = f.kind.replace("_", " ")
             size = f" DN{f.size_mm:.0f}" if f.size_mm else ""
+            risk = crest_risk.get(float(f.chainage_m))
+            risk_text = (f"<br>DEM error: {risk:.0%} chance that this point rises above the HGL"
+                         if risk is not None else "")
             folium.CircleMarker(
                 [float(prof.lat[f.index]), float(prof.lon[f.index])], radius=5, color="black",
                 weight=1, fill=True, fill_color=colours.get(f.kind, "#999999"), fill_opacity=1.0,
                 tooltip=esc(f"{kind} at {f.chainage_m:,.0f} m"), class_name=f"plan-feature {f.kind}",
                 popup=folium.Popup(f"<b>{esc(kind)}{esc(size)}</b><br>chainage {f.chainage_m:,.0f} m"
                                    f"<br>pipe elevation {f.elevation_m:.1f} m<br>rule: {esc(f.rule)}"
-                                   f"<br>source: {esc(f.source)}<br>{esc(f.detail)}",
+                                   f"<br>source: {esc(f.source)}<br>{esc(f.detail)}{risk_text}",
                                    max_width=340)).add_to(valves)
     route.add_to(m)
     if labels:

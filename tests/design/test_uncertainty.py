@@ -148,3 +148,12 @@ def test_gps_heights_are_compared_with_the_dem(plane_dem, tmp_path, offset, datu
     note = next(t for t in prof.notes if t.startswith("GPS heights"))
     assert f"mean {offset:+.1f} m" in note
     assert ("vertical datums" in note) == datum_hint
+
+
+def test_the_map_shows_the_probabilities(ramp_site):
+    from planner.report.web_map import build_map
+
+    plan = plan_scenario(load_scenario(scenario(ramp_site)))
+    html = build_map(plan).get_root().render()
+    p = plan.uncertainty.outlets[0][1]
+    assert f"DEM error: {p:.0%} chance of less than the minimum" in html
