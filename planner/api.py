@@ -62,10 +62,10 @@ def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
         "profile.csv": write_profile_csv(plan_.profile, out / "profile.csv"),
     }
     # the drawing, the sheets and the map are independent: drawn side by side on spare cores
-    jobs = [("png", plan_, out, None), ("sheets", plan_, out, None)]
+    jobs = [("png", plan_, out, "profile", {}), ("sheets", plan_, out, "profile", {})]
     if np.all(np.isfinite(plan_.profile.lat)):
-        jobs.append(("map", plan_, out, (_terrain_window(plan_), None, None)))
-    for part in _in_parallel(_line_part, jobs):
+        jobs.append(("map", plan_, out, "", {"terrain": _terrain_window(plan_)}))
+    for part in _in_parallel(_drawing, jobs):
         written.update(part)
     written.update(_deliverables([plan_], out, junctions=0))
     written.update(_report(out, [out / "profile.png"]))
@@ -121,25 +121,14 @@ def write_any(plan_, out_dir: str | Path) -> dict[str, Path]:
     return write_outputs(plan_, out_dir)
 
 
-def _line_part(kind: str, plan_, out: Path, arg) -> dict[str, Path]:
-    """One independent deliverable of a line: its PNG, its sheets or its map."""
+def _drawing(kind: str, plans, out: Path, stem: str, map_kw: dict) -> dict[str, Path]:
+    """One deliverable that needs nothing from the others: a profile PNG named ``stem``,
+    the permit sheets named ``stem``, or the map."""
     if kind == "png":
-        return {"profile.png": write_profile_png(plan_, out / "profile.png")}
+        return {f"{stem}.png": write_profile_png(plans, out / f"{stem}.png")}
     if kind == "sheets":
-        return _sheets(plan_, out, "profile")
-    return {"map.html": write_map(plan_, out / "map.html", terrain=arg[0])}
-
-
-def _network_part(kind: str, plans, out: Path, arg) -> dict[str, Path]:
-    """One independent deliverable of a tree: a path's PNG or sheets, or the map."""
-    if kind == "png":
-        name = f"profile_{arg}.png"
-        return {name: write_profile_png(plans, out / name)}
-    if kind == "sheets":
-        return _sheets(plans, out, f"profile_{arg}")
-    terrain, title, risk = arg
-    return {"map.html": write_map(plans, out / "map.html", terrain=terrain, title=title,
-                                  outlet_risk=risk)}
+        return _sheets(plans, out, stem)
+    return {"map.html": write_map(plans, out / "map.html", **map_kw)}
 
 
 def _in_parallel(fn, jobs: list[tuple]) -> list:
@@ -151,7 +140,6 @@ def _in_parallel(fn, jobs: list[tuple]) -> list:
     """
     import multiprocessing as mp
     import os
-
     import threading
 
     workers = min(len(jobs), os.cpu_count() or 1)
@@ -176,22 +164,18 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
     out.mkdir(parents=True, exist_ok=True)
     link_plans = [as_line_plan(plan_, [k]) for k in range(len(plan_.links))]
     written = {}
-    ends = [k for k in range(len(plan_.links)) if not any(lk.parent == k for lk in plan_.links)]
     drawings, jobs = [], []
-    for k in ends:
+    for k in plan_.ends:
         path_plan = as_line_plan(plan_, plan_.path(k))
         last = path_plan.outlets[-1].name if path_plan.outlets else plan_.links[k].name
-        slug = re.sub(r"[^a-z0-9]+", "-", last.lower()).strip("-") or f"path-{k}"
-        jobs += [("png", path_plan, out, slug), ("sheets", path_plan, out, slug)]
-        drawings.append({"file": f"profile_{slug}.png", "links": plan_.path(k), "to": last})
-    risk = {}
-    for _, u in plan_.uncertainty:
-        for name, p, fall in u.outlets:
-            risk.setdefault(name, (p, fall))
-    jobs.append(("map", link_plans, out, (_terrain_window(link_plans), plan_.scenario.project.name,
-                                          risk)))
+        stem = "profile_" + (re.sub(r"[^a-z0-9]+", "-", last.lower()).strip("-") or f"path-{k}")
+        jobs += [("png", path_plan, out, stem, {}), ("sheets", path_plan, out, stem, {})]
+        drawings.append({"file": f"{stem}.png", "links": plan_.path(k), "to": last})
+    jobs.append(("map", link_plans, out, "", {"terrain": _terrain_window(link_plans),
+                                              "title": plan_.scenario.project.name,
+                                              "outlet_risk": plan_.outlet_risk}))
     # the drawings and the map are independent: drawn side by side on spare cores
-    for part in _in_parallel(_network_part, jobs):
+    for part in _in_parallel(_drawing, jobs):
         written.update(part)
     written["plan.json"] = write_network_json(plan_, link_plans, drawings, out / "plan.json")
     junctions = sum(1 for k in range(len(plan_.links))

@@ -28,9 +28,9 @@ import numpy as np
 from shapely.geometry import LineString
 
 from ..errors import InputError, PlannerError
-from ..geo.profile import sample_profile
 from ..geo.route import route_from_line
 from ..geo.terrain import open_dem
+from ..units import LPS
 
 #: Most vertices a drawing may have (a 100 km line with a vertex every 5 m).
 MAX_VERTICES = 20_000
@@ -224,12 +224,8 @@ def summarise(plan) -> dict:
 
     if isinstance(plan, NetworkPlan):
         L = len(plan.links)
-        ends = [k for k in range(L) if not any(lk.parent == k for lk in plan.links)]
-        paths = []
-        for k in ends:
-            p = as_line_plan(plan, plan.path(k))
-            paths.append({"name": " > ".join(dict.fromkeys(plan.links[i].name for i in plan.path(k))),
-                          **_line_summary(p)})
+        paths = [{"name": plan.path_name(k), **_line_summary(as_line_plan(plan, plan.path(k)))}
+                 for k in plan.ends]
         pieces, points = [], []
         for k in range(L):
             lp = as_line_plan(plan, [k])
@@ -244,7 +240,7 @@ def summarise(plan) -> dict:
     return {"ok": True, "mode": plan.mode, "length_m": _fmt(length, 1),
             "cost": _fmt(plan.pipe_cost, 0) if plan.mode == "design" else None,
             "bound": _fmt(sizing.lower_bound, 0) if sizing is not None else None,
-            "flow_lps": _fmt(plan.total_flow_m3s * 1e3, 2),
+            "flow_lps": _fmt(plan.total_flow_m3s / LPS, 2),
             "errors": sum(f.severity == "error" for f in findings),
             "warnings": sum(f.severity == "warning" for f in findings),
             "findings": _findings(findings), "pieces": pieces, "points": points,
@@ -307,10 +303,6 @@ class LiveSession:
         if len(lines) > 1:
             raise DrawingError(f"{len(lines)} lines are drawn, but this scenario is one line; "
                                "delete the extra lines, or set [route] network = true")
-        from ..design.plan import plan_scenario
-        line, name = lines[0]
-        prof = sample_profile(route_from_line(line, source="the drawn line"), self.dem,
-                              spacing_m=sc.route.spacing_m, cover_m=sc.criteria.cover_m,
-                              max_void_m=sc.terrain.max_void_m,
-                              vertical_datum=sc.terrain.vertical_datum)
+        from ..design.plan import build_profile, plan_scenario
+        prof = build_profile(sc, self.dem, route_from_line(lines[0][0], source="the drawn line"))
         return plan_scenario(sc, profile=prof, dem=self.dem, compare_single_size=False)

@@ -22,7 +22,7 @@ from pyproj import Transformer
 
 from ..errors import DesignError, InputError, InputFileError
 from ..geo.network import RouteNetwork, build_tree, read_lines
-from ..geo.profile import Profile, sample_profile
+from ..geo.profile import Profile
 from ..geo.route import WGS84, Route
 from ..geo.terrain import open_dem
 from ..hydraulics import surge as sg
@@ -34,6 +34,7 @@ from .checks import Finding, check_yield, gravity_reachable
 from .uncertainty import Uncertainty
 from .features import Feature, place_features
 from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line, _surge_pool,
+                   build_profile,
                    _candidate_data, _cheapest_per_size, _split_points, _stretches,
                    _wave_speeds, line_findings, pipe_options, static_limit)
 from .sizing import SizingProblem, SizingResult, best_single_size, solve_sizing, solve_whole_pieces
@@ -96,6 +97,25 @@ class NetworkPlan:
             out.append(link)
             link = self.links[link].parent
         return out[::-1]
+
+    @property
+    def ends(self) -> list[int]:
+        """Links no other link hangs from: each path from the source ends at one."""
+        return [k for k in range(len(self.links)) if not any(lk.parent == k for lk in self.links)]
+
+    def path_name(self, link: int) -> str:
+        """The names of the links from the source to ``link``, e.g. "main > school branch"."""
+        return " > ".join(dict.fromkeys(self.links[i].name for i in self.path(link)))
+
+    @property
+    def outlet_risk(self) -> dict[str, tuple[float, float]]:
+        """Outlet name -> (chance below its minimum, 95 % fall [m]), from the first path
+        through it (see :func:`_with_uncertainty`)."""
+        risk: dict[str, tuple[float, float]] = {}
+        for _, u in self.uncertainty:
+            for name, p, fall in u.outlets:
+                risk.setdefault(name, (p, fall))
+        return risk
 
 
 def _link_name(net_link, k):
@@ -176,10 +196,7 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
     label = sc.route.file.name if lines is None else "the drawing"
     grid = open_dem(dem if dem is not None else list(sc.terrain.dem))
     try:
-        profiles = [sample_profile(Route(line=lk.line, source=f"{label} ({names[k]})"),
-                                   grid, spacing_m=sc.route.spacing_m,
-                                   cover_m=cr.cover_m, max_void_m=sc.terrain.max_void_m,
-                                   vertical_datum=sc.terrain.vertical_datum)
+        profiles = [build_profile(sc, grid, Route(line=lk.line, source=f"{label} ({names[k]})"))
                     for k, lk in enumerate(links)]
     finally:
         if dem is None:
@@ -621,14 +638,12 @@ def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
     if not spec.enabled:
         return plan
     model = error_model(spec.product, spec.sigma_m, spec.correlation_m)
-    ends = [k for k in range(len(plan.links)) if not any(lk.parent == k for lk in plan.links)]
     out, found, seen = [], list(plan.findings), {f.message for f in plan.findings}
-    for k in ends:
-        ids = plan.path(k)
-        path = as_line_plan(plan, ids)
+    for k in plan.ends:
+        path = as_line_plan(plan, plan.path(k))
         u = line_uncertainty(path, model, realisations=spec.realisations, seed=spec.seed,
                              source_moves=sc.source.top_level_m is None)
-        name = " > ".join(dict.fromkeys(plan.links[i].name for i in ids))
+        name = plan.path_name(k)
         out.append((name, u))
         for f in uncertainty_findings(u):
             # chainages are along the path: say which; an outlet is named once

@@ -153,10 +153,15 @@ class Plan:
         return float(heads[k]), float(where[k])
 
 
-def build_profile(scenario: Scenario, dem=None) -> Profile:
-    """The scenario's route profile: sampled from the DEM, or taken from a CSV survey."""
+def build_profile(scenario: Scenario, dem=None, route=None) -> Profile:
+    """The scenario's route profile: sampled from the DEM, or taken from a CSV survey.
+
+    ``route`` (a :class:`~planner.geo.route.Route`) stands in for the scenario's route
+    file: a line drawn in the editor, or one link of a tree.
+    """
     sc = scenario
-    route = read_route(sc.route.file, crs=sc.route.crs)
+    if route is None:
+        route = read_route(sc.route.file, crs=sc.route.crs)
     if isinstance(route, Survey):
         return profile_from_survey(route, sc.criteria.cover_m,
                                    vertical_datum=sc.terrain.vertical_datum if sc.terrain else None)
