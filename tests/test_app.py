@@ -19,7 +19,8 @@ import numpy as np
 import pytest
 
 from planner import api
-from planner.app.server import MAX_BODY, App, route_drawing
+from planner.app.draw import route_drawing
+from planner.app.server import MAX_BODY, App
 from planner.app.session import DrawingError, LiveSession, parse_drawing
 
 

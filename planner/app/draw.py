@@ -1,34 +1,67 @@
-"""``gravplan draw``: write the offline drawing page for a DEM (I/O at the edge)."""
+"""Drawings: a scenario's route and points as GeoJSON, and the ``gravplan draw`` page.
+
+I/O at the edge: reads the scenario's route file and writes the page; the editor's
+server uses the same GeoJSON for its starting drawing and for Save.
+"""
 
 from __future__ import annotations
 
 from pathlib import Path
 
+from ..errors import PlannerError
 from ..geo.terrain import open_dem
 from ..report.files import write_text
+from ..units import LPS
 from .page import build_page, terrain_layers
+
+
+def lines_geojson(pairs) -> dict:
+    """A FeatureCollection of lon/lat ``(LineString, name)`` pairs."""
+    from shapely.geometry import mapping
+
+    return {"type": "FeatureCollection",
+            "features": [{"type": "Feature", "properties": {"name": name or f"line {k + 1}"},
+                          "geometry": mapping(line)} for k, (line, name) in enumerate(pairs)]}
+
+
+def route_drawing(scenario) -> dict:
+    """The scenario's route file as a FeatureCollection of its lines."""
+    if scenario.route.network:
+        from ..geo.network import read_lines
+        return lines_geojson(read_lines(scenario.route.file))
+    from ..geo.route import Survey, read_route
+    route = read_route(scenario.route.file, crs=scenario.route.crs)
+    if isinstance(route, Survey):
+        raise PlannerError(f"{scenario.route.file}: a CSV survey has no map coordinates to "
+                           "edit; draw the route with `gravplan draw DEM` instead")
+    return lines_geojson([(route.line, "main")])
+
+
+def scenario_points(scenario, drawing: dict) -> list[dict]:
+    """Point features for the source (its location, else the first line's start) and
+    for every outlet given by location, with the properties the page edits."""
+    feats = drawing["features"]
+    src = scenario.source.location or (feats[0]["geometry"]["coordinates"][0][:2] if feats else None)
+    out = []
+    if src is not None:
+        out.append({"type": "Feature", "geometry": {"type": "Point", "coordinates": list(src)},
+                    "properties": {"role": "source", "name": scenario.source.name}})
+    for o in scenario.outlets:
+        if o.location is not None:
+            out.append({"type": "Feature", "geometry": {"type": "Point", "coordinates": list(o.location)},
+                        "properties": {"role": "outlet", "name": o.name,
+                                       "flow_lps": round(o.flow_m3s / LPS, 3),
+                                       "min_pressure_m": o.min_pressure_m}})
+    return out
 
 
 def _scenario_drawing(scenario_path: Path) -> tuple[dict, str]:
     """A scenario's route, source and located outlets as an editable drawing."""
     from ..scenario import load_scenario
-    from ..units import LPS
-    from .server import route_drawing
 
     sc = load_scenario(scenario_path)
     fc = route_drawing(sc)
-    first = fc["features"][0]["geometry"]["coordinates"][0] if fc["features"] else None
-    src = sc.source.location or (first[:2] if first else None)
-    if src is not None:
-        fc["features"].append({"type": "Feature", "geometry": {"type": "Point", "coordinates": list(src)},
-                               "properties": {"role": "source", "name": sc.source.name}})
-    for o in sc.outlets:
-        if o.location is not None:
-            fc["features"].append({"type": "Feature",
-                                   "geometry": {"type": "Point", "coordinates": list(o.location)},
-                                   "properties": {"role": "outlet", "name": o.name,
-                                                  "flow_lps": round(o.flow_m3s / LPS, 3),
-                                                  "min_pressure_m": o.min_pressure_m}})
+    fc["features"] += scenario_points(sc, fc)
     return fc, sc.project.name
 
 

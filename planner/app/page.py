@@ -47,28 +47,35 @@ def _png_data_uri(rgba: np.ndarray) -> str:
     return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode("ascii")
 
 
-def _cursor_grid(dem: Dem) -> dict:
-    """The DEM resampled onto a lon/lat grid for the elevation under the cursor."""
+def _cursor_grid(grid: np.ndarray, transform, crs) -> dict:
+    """A DEM window resampled onto a lon/lat grid (longest side :data:`CURSOR_PIXELS`)
+    for the elevation under the cursor."""
     from rasterio.enums import Resampling
     from rasterio.warp import calculate_default_transform, reproject
 
-    grid, transform = read_overview(dem, dem.bounds, max_pixels=CURSOR_PIXELS)
     h, w = grid.shape
     left, top = transform * (0, 0)
     right, bottom = transform * (w, h)
-    dst_t, dw, dh = calculate_default_transform(dem.crs, "EPSG:4326", w, h, left, bottom, right, top)
+    box = (left, bottom, right, top)
+    dst_t, dw, dh = calculate_default_transform(crs, "EPSG:4326", w, h, *box)
+    scale = max(dw, dh) / CURSOR_PIXELS
+    if scale > 1:
+        dst_t, dw, dh = calculate_default_transform(crs, "EPSG:4326", w, h, *box,
+                                                    resolution=(dst_t.a * scale, -dst_t.e * scale))
     ll = np.full((dh, dw), np.nan, dtype=np.float32)
-    reproject(grid.astype(np.float32), ll, src_transform=transform, src_crs=dem.crs,
+    reproject(grid.astype(np.float32), ll, src_transform=transform, src_crs=crs,
               dst_transform=dst_t, dst_crs="EPSG:4326", resampling=Resampling.bilinear,
               src_nodata=np.nan, dst_nodata=np.nan)
-    cell_m = abs(transform.a) * (111_320.0 if dem.is_geographic else 1.0)
+    mid_lat = dst_t.f + dst_t.e * dh / 2
+    cell_m = dst_t.a * 111_320.0 * np.cos(np.radians(mid_lat))
     return {"west": dst_t.c, "north": dst_t.f, "dx": dst_t.a, "dy": dst_t.e, "nx": dw, "ny": dh,
             "cell_m": round(float(cell_m), 1),
             "z": base64.b64encode(ll.astype("<f4").tobytes()).decode("ascii")}
 
 
 def terrain_layers(dem: Dem) -> dict:
-    """Hillshade (data URI and bounds), contours and the cursor grid of the whole DEM."""
+    """Hillshade (data URI and bounds), contours and the cursor grid of the whole DEM,
+    all from one decimated read."""
     from ..report.web_map import _overlay, contour_lines
 
     grid, transform = read_overview(dem, dem.bounds, max_pixels=SHADE_PIXELS)
@@ -76,7 +83,7 @@ def terrain_layers(dem: Dem) -> dict:
     contours = contour_lines(grid, transform, dem.crs)
     return {"hillshade": {"url": _png_data_uri(rgba), "bounds": bounds},
             "contours": [{"z": z, "ll": ll} for z, ll in contours],
-            "cursor": _cursor_grid(dem), "dem": dem.describe()}
+            "cursor": _cursor_grid(grid, transform, dem.crs), "dem": dem.describe()}
 
 
 def _script_json(data) -> str:

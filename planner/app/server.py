@@ -29,6 +29,7 @@ from pathlib import Path
 
 from ..errors import PlannerError
 from ..report.files import write_text
+from .draw import lines_geojson, route_drawing, scenario_points
 from .session import DrawingError, LiveSession, parse_drawing
 
 log = logging.getLogger(__name__)
@@ -36,25 +37,6 @@ log = logging.getLogger(__name__)
 #: Largest request body accepted [bytes] (a 20,000-vertex drawing is about 0.6 MB).
 MAX_BODY = 2 * 1024 * 1024
 LOOPBACK = "127.0.0.1"
-
-
-def route_drawing(scenario) -> dict:
-    """The scenario's route file as a GeoJSON FeatureCollection of its lines."""
-    from shapely.geometry import mapping
-
-    if scenario.route.network:
-        from ..geo.network import read_lines
-        pairs = read_lines(scenario.route.file)
-    else:
-        from ..geo.route import Survey, read_route
-        route = read_route(scenario.route.file, crs=scenario.route.crs)
-        if isinstance(route, Survey):
-            raise PlannerError(f"{scenario.route.file}: a CSV survey has no map coordinates to "
-                               "edit; draw the route with `gravplan draw DEM` instead")
-        pairs = [(route.line, "main")]
-    return {"type": "FeatureCollection",
-            "features": [{"type": "Feature", "properties": {"name": name},
-                          "geometry": mapping(line)} for line, name in pairs]}
 
 
 def save_target(scenario) -> Path:
@@ -66,11 +48,7 @@ def save_target(scenario) -> Path:
 def save_drawing(drawing, target: Path) -> dict:
     """Check the drawing, keep the current file as ``<name>.bak``, write the new one atomically."""
     lines, _ = parse_drawing(drawing)
-    from shapely.geometry import mapping
-
-    fc = {"type": "FeatureCollection",
-          "features": [{"type": "Feature", "properties": {"name": name or f"line {k + 1}"},
-                        "geometry": mapping(line)} for k, (line, name) in enumerate(lines)]}
+    fc = lines_geojson(lines)
     backup = None
     if target.exists():
         backup = target.with_name(target.name + ".bak")
@@ -186,7 +164,9 @@ class App:
         self.target = save_target(scenario)
         self.drawing = route_drawing(scenario)
         self.save_lock = threading.Lock()
-        markers = _scenario_markers(scenario, self.drawing)
+        markers = [{"role": f["properties"]["role"], "name": f["properties"]["name"],
+                    "ll": f["geometry"]["coordinates"][::-1]}
+                   for f in scenario_points(scenario, self.drawing)]
         self.page = build_page(mode="live", title=scenario.project.name,
                                terrain=terrain_layers(self.session.dem), drawing=self.drawing,
                                markers=markers)
@@ -207,19 +187,3 @@ class App:
 
     def shutdown(self) -> None:
         self.httpd.shutdown()
-
-
-def _scenario_markers(scenario, drawing) -> list[dict]:
-    """The source and the outlets that have a location, as fixed markers."""
-    out = []
-    feats = drawing["features"]
-    if scenario.source.location is not None:
-        lon, lat = scenario.source.location
-    else:
-        lon, lat = feats[0]["geometry"]["coordinates"][0][:2] if feats else (None, None)
-    if lon is not None:
-        out.append({"role": "source", "name": scenario.source.name, "ll": [lat, lon]})
-    for o in scenario.outlets:
-        if o.location is not None:
-            out.append({"role": "outlet", "name": o.name, "ll": [o.location[1], o.location[0]]})
-    return out

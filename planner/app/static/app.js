@@ -169,14 +169,12 @@
   function roleIcon(m) {
     var source = m.gp.role === "source";
     m.setIcon(L.divIcon({className: "gp-pt " + (source ? "gp-source" : "gp-outlet"),
-                         html: source ? "S" : "T", iconSize: [20, 20], iconAnchor: [10, 10]}));
+                         html: source ? "S" : "O", iconSize: [20, 20], iconAnchor: [10, 10]}));
   }
   function bindMarker(m) {
     m.on("click", function () { pointForm(m); });
     roleIcon(m);
-    var g = m.gp;
     m.bindTooltip(function () { return (m.gp.role === "source" ? "source: " : "outlet: ") + (m.gp.name || ""); });
-    return g;
   }
   function pointForm(m) {
     var box = $("pointform");
