@@ -196,7 +196,7 @@ class Scenario:
     criteria: Criteria = field(default_factory=Criteria)
     design: Design | None = None
     drawing: Drawing = field(default_factory=Drawing)
-    uncertainty: "UncertaintySpec" = field(default_factory=lambda: UncertaintySpec())
+    uncertainty: UncertaintySpec = field(default_factory=UncertaintySpec)
     survey_points: tuple[SurveyPoint, ...] = field(default=())
 
 

@@ -30,8 +30,8 @@ from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, segment_flows
 from ..hydraulics.network import LinkData, accumulate_flows, tree_energy
 from ..scenario import Scenario
-from .checks import Finding, check_yield, gravity_reachable
-from .uncertainty import Uncertainty
+from .checks import Finding, check_uncertainty, check_yield, gravity_reachable
+from .uncertainty import Uncertainty, line_uncertainty, model_for
 from .features import Feature, place_features
 from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line, _surge_pool,
                    build_profile,
@@ -630,14 +630,11 @@ def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
     """
     from dataclasses import replace
 
-    from .plan import uncertainty_findings
-    from .uncertainty import error_model, line_uncertainty
-
     sc = plan.scenario
     spec = sc.uncertainty
-    if not spec.enabled:
+    model = model_for(spec)
+    if model is None:
         return plan
-    model = error_model(spec.product, spec.sigma_m, spec.correlation_m)
     out, found, seen = [], list(plan.findings), {f.message for f in plan.findings}
     for k in plan.ends:
         path = as_line_plan(plan, plan.path(k))
@@ -645,10 +642,10 @@ def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
                              source_moves=sc.source.top_level_m is None)
         name = plan.path_name(k)
         out.append((name, u))
-        for f in uncertainty_findings(u):
+        for f in check_uncertainty(u):
             # chainages are along the path: say which; an outlet is named once
             if not f.message.startswith("outlet "):
-                f = Finding(f.severity, f.code, f"path {name}: {f.message}", f.remedy)
+                f = replace(f, message=f"path {name}: {f.message}")
             if f.message not in seen:
                 seen.add(f.message)
                 found.append(f)

@@ -33,17 +33,14 @@ from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, line_ener
 from ..scenario import Scenario
 from ..units import G
 from .checks import (Finding, _where, check_line, check_outlet, check_surge, check_tank,
-                     check_yield, gravity_reachable, stretches as runs)
+                     check_uncertainty, check_yield, gravity_reachable, stretches as runs)
 from .features import Feature, place_features
-from .uncertainty import Uncertainty, error_model, line_uncertainty
+from .uncertainty import Uncertainty, line_uncertainty, model_for
 from .sizing import (SizingProblem, SizingResult, best_single_size, solve_sizing,
                      solve_whole_pieces)
 from .tanks import TankSite, place_tanks
 
 SEVERITY_ORDER = {"error": 0, "warning": 1, "note": 2}
-#: A limit is warned about when DEM error breaks it in more than this share of the
-#: realisations (common practice for a planning-stage check: 1 in 10).
-PROBABILITY_WARN = 0.10
 
 
 @dataclass(frozen=True)
@@ -478,56 +475,17 @@ def with_uncertainty(plan: Plan) -> Plan:
     from dataclasses import replace
 
     sc = plan.scenario
-    spec = sc.uncertainty
-    if not spec.enabled or (sc.terrain is None and spec.sigma_m is None):
+    model = model_for(sc.uncertainty, survey=sc.terrain is None)
+    if model is None:
         return plan
-    model = error_model(spec.product, spec.sigma_m, spec.correlation_m)
-    if sc.terrain is None:
-        model = replace(model, product="survey", source=f"given in the scenario (sigma {spec.sigma_m:g} m)")
-    u = line_uncertainty(plan, model, realisations=spec.realisations, seed=spec.seed,
-                         source_moves=sc.source.top_level_m is None,
+    u = line_uncertainty(plan, model, realisations=sc.uncertainty.realisations,
+                         seed=sc.uncertainty.seed, source_moves=sc.source.top_level_m is None,
                          pins=[c for _, c, _ in plan.profile.pins],
                          pin_names=tuple(n for n, _, _ in plan.profile.pins))
-    found = list(plan.findings) + uncertainty_findings(u)
+    found = list(plan.findings) + check_uncertainty(u)
     found.sort(key=lambda f: (SEVERITY_ORDER[f.severity],
                               f.chainage_m if f.chainage_m is not None else -1.0))
     return replace(plan, uncertainty=u, findings=tuple(found))
-
-
-def uncertainty_findings(u: Uncertainty) -> list[Finding]:
-    """Warnings where DEM error makes a limit uncertain, and the margin to add."""
-    m = u.model
-    short = f"DEM error sigma {m.sigma_m:.1f} m"
-    basis = (f"DEM vertical error sigma {m.sigma_m:.1f} m, correlated over {m.correlation_m:,.0f} m "
-             f"({m.source}); {u.realisations:,} realisations")
-    out = []
-    for name, p, fall in u.outlets:
-        if p > PROBABILITY_WARN:
-            out.append(Finding("warning", "dem-uncertainty",
-                               f"outlet {name!r}: {p:.0%} chance that the residual pressure falls "
-                               f"below its minimum ({short})",
-                               f"survey the levels of the source, tanks and this outlet, or add "
-                               f"{fall:.1f} m to its minimum pressure"))
-    for chainage, p in u.crests:
-        if p > PROBABILITY_WARN:
-            out.append(Finding("warning", "dem-uncertainty",
-                               f"crest at chainage {chainage:,.0f} m: {p:.0%} chance that it rises "
-                               f"above the hydraulic grade line ({short})",
-                               "survey this crest; lower the pipe or re-route if it is confirmed",
-                               chainage, chainage))
-    for a, b, label, p in u.stretches:
-        if p > PROBABILITY_WARN:
-            out.append(Finding("warning", "dem-uncertainty",
-                               f"{label} from {a:,.0f} to {b:,.0f} m: {p:.0%} chance that the static "
-                               f"pressure exceeds its rating somewhere ({short})",
-                               "use the next pressure class there, or survey the low points", a, b))
-    out.append(Finding("note", "dem-uncertainty",
-                       f"with {basis}: {u.p_any_outlet_short:.0%} chance that some outlet is "
-                       f"short of its minimum pressure; to be 95 % sure, add {u.margin_m:.1f} m to "
-                       f"outlet minimum pressures and allow {u.static_margin_m:.1f} m more static "
-                       "pressure than the DEM gives",
-                       "a field survey of the line's levels removes most of this uncertainty"))
-    return out
 
 
 def _exact_energy(prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr):

@@ -89,6 +89,22 @@ def error_model(product: str | None = None, sigma_m: float | None = None,
                       source=source)
 
 
+def model_for(spec, *, survey: bool = False) -> ErrorModel | None:
+    """The error model a scenario's ``[uncertainty]`` asks for, or None when it is off.
+
+    On a CSV survey (``survey``) there is no DEM: the estimate runs only when the user
+    gives the levelling's own sigma.
+    """
+    if not spec.enabled or (survey and spec.sigma_m is None):
+        return None
+    model = error_model(spec.product, spec.sigma_m, spec.correlation_m)
+    if survey:
+        from dataclasses import replace
+        model = replace(model, product="survey",
+                        source=f"given in the scenario (sigma {spec.sigma_m:g} m)")
+    return model
+
+
 def correlated_errors(chainage: NDArray, sigma: float, length: float, realisations: int,
                       rng: np.random.Generator) -> NDArray[np.float64]:
     """Realisations of a zero-mean Gaussian error with exponential correlation.
@@ -176,20 +192,15 @@ def line_uncertainty(plan, model: ErrorModel, *, realisations: int = 1000, seed:
     rng = np.random.default_rng(seed)
     err = correlated_errors(ch, model.sigma_m, model.correlation_m, realisations, rng)
     if pins:
-        at = np.array([np.interp(p, ch, np.arange(n)) for p in sorted(pins)])
-        lo = np.floor(at).astype(int)
-        w = at - lo
-        hi = np.minimum(lo + 1, n - 1)
-        pin_err = err[:, lo] * (1 - w) + err[:, hi] * w           # (R, pins)
+        # the profile was shifted to the surveyed levels, so the error left is e(x) less
+        # e at the pins, interpolated as the shift was (linear between, flat beyond)
         pin_ch = np.sort(np.asarray(pins, dtype=float))
-        # the correction removes the error at the pins, linearly between, flat beyond
-        j = np.clip(np.searchsorted(pin_ch, ch) - 1, 0, max(len(pin_ch) - 2, 0))
-        if len(pin_ch) == 1:
-            corr = np.repeat(pin_err[:, :1], n, axis=1)
-        else:
-            t = np.clip((ch - pin_ch[j]) / (pin_ch[j + 1] - pin_ch[j]), 0.0, 1.0)
-            corr = pin_err[:, j] * (1 - t) + pin_err[:, j + 1] * t
-        err = err - corr
+        eye = np.eye(pin_ch.size)
+        pos = np.interp(pin_ch, ch, np.arange(n, dtype=float))     # pins among the points
+        lo = np.minimum(pos.astype(int), n - 2)
+        at_pins = err[:, lo] * (lo + 1 - pos) + err[:, lo + 1] * (pos - lo)   # (R, pins)
+        weights = np.column_stack([np.interp(ch, pin_ch, eye[k]) for k in range(pin_ch.size)])
+        err = err - at_pins @ weights.T
     starts = [0] + [t.index for t in plan.tanks]
     s = _reach_start(n, starts)
     shift = err - err[:, s]                                       # e(x) - e(s)

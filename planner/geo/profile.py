@@ -415,15 +415,23 @@ def split_profile(profile: Profile, chainages) -> tuple[Profile, NDArray[np.int6
 GPS_MEAN_LIMIT_M = 10.0
 
 
+def gps_offset_summary(offset: NDArray) -> dict:
+    """Statistics of GPS heights minus DEM [m]: count, mean, SD, RMS, largest (signed)."""
+    off = np.asarray(offset, dtype=float)
+    return {"vertices": int(off.size), "mean_m": float(off.mean()), "sd_m": float(off.std()),
+            "rms_m": float(np.sqrt(np.mean(off ** 2))),
+            "largest_m": float(off[np.argmax(np.abs(off))])}
+
+
 def gps_comparison_note(offset: NDArray) -> str:
     """One sentence on GPS heights against the DEM (offset = GPS minus DEM, [m])."""
-    off = np.asarray(offset, dtype=float)
-    if off.size == 0:
+    if np.asarray(offset).size == 0:
         return "the route's GPS heights could not be compared with the DEM"
-    rms = float(np.sqrt(np.mean(off ** 2)))
-    text = (f"GPS heights of the route's {off.size} vertices minus the DEM: mean {off.mean():+.1f} m, "
-            f"standard deviation {off.std():.1f} m, RMS {rms:.1f} m, largest {off[np.argmax(np.abs(off))]:+.1f} m")
-    if abs(float(off.mean())) > GPS_MEAN_LIMIT_M:
+    g = gps_offset_summary(offset)
+    text = (f"GPS heights of the route's {g['vertices']} vertices minus the DEM: mean "
+            f"{g['mean_m']:+.1f} m, standard deviation {g['sd_m']:.1f} m, RMS {g['rms_m']:.1f} m, "
+            f"largest {g['largest_m']:+.1f} m")
+    if abs(g["mean_m"]) > GPS_MEAN_LIMIT_M:
         text += ("; that mean offset is larger than either usually errs: check the vertical datums "
                  "(a receiver may log ellipsoidal heights, tens of metres from a geoid-based DEM) "
                  "and pin surveyed levels ([[survey_points]])")

@@ -203,17 +203,16 @@ def uncertainty_to_dict(u) -> dict | None:
 
 def elevations_to_dict(prof, stretches) -> dict:
     """Where the elevations come from: DEM, pins to surveyed levels, GPS comparison."""
-    from ..geo.profile import elevation_source_between
+    from ..geo.profile import elevation_source_between, gps_offset_summary
 
     gps = None
     if prof.gps_offset_m is not None and prof.gps_offset_m.size:
-        off = prof.gps_offset_m
-        gps = {"vertices": int(off.size), "mean_offset_m": _f(float(off.mean()), 2),
-               "sd_offset_m": _f(float(off.std()), 2),
-               "rms_offset_m": _f(float(np.sqrt(np.mean(off ** 2))), 2),
-               "max_abs_offset_m": _f(float(np.max(np.abs(off))), 2),
+        g = gps_offset_summary(prof.gps_offset_m)
+        gps = {"vertices": g["vertices"], "mean_offset_m": _f(g["mean_m"], 2),
+               "sd_offset_m": _f(g["sd_m"], 2), "rms_offset_m": _f(g["rms_m"], 2),
+               "max_abs_offset_m": _f(abs(g["largest_m"]), 2),
                "offsets": [{"chainage_m": _f(c, 2), "gps_minus_dem_m": _f(o, 2)}
-                           for c, o in zip(prof.gps_chainage_m, off)]}
+                           for c, o in zip(prof.gps_chainage_m, prof.gps_offset_m)]}
     return {"source": prof.elevation_source,
             "pins": [{"name": n, "chainage_m": _f(c, 2), "offset_m": _f(o, 3)} for n, c, o in prof.pins],
             "gps_comparison": gps,

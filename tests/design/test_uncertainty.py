@@ -148,6 +148,10 @@ def test_gps_heights_are_compared_with_the_dem(plane_dem, tmp_path, offset, datu
     note = next(t for t in prof.notes if t.startswith("GPS heights"))
     assert f"mean {offset:+.1f} m" in note
     assert ("vertical datums" in note) == datum_hint
+    from planner.report.plan_json import elevations_to_dict
+    g = elevations_to_dict(prof, [])["gps_comparison"]
+    assert g["vertices"] == 4 and g["mean_offset_m"] == pytest.approx(offset, abs=0.01)
+    assert g["max_abs_offset_m"] == pytest.approx(abs(offset), abs=0.01)
 
 
 def test_the_map_shows_the_probabilities(ramp_site):
