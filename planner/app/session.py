@@ -30,6 +30,7 @@ from shapely.geometry import LineString
 from ..errors import InputError, PlannerError
 from ..geo.route import route_from_line
 from ..geo.terrain import open_dem
+from ..report.plan_json import json_number
 from ..units import LPS
 
 #: Most vertices a drawing may have (a 100 km line with a vertex every 5 m).
@@ -140,11 +141,6 @@ def parse_drawing(obj) -> tuple[list[tuple[LineString, str]], list[dict]]:
     return lines, points
 
 
-def _fmt(x, nd=2):
-    x = float(x)
-    return round(x, nd) if math.isfinite(x) else None
-
-
 def _take(n: int, keep, most: int) -> np.ndarray:
     """Indices of at most ``most`` evenly spaced points, always with ``keep`` and the ends."""
     step = max(1, int(math.ceil(n / most)))
@@ -168,9 +164,9 @@ def _pieces(plan, most: int) -> list[dict]:
         if b <= a:
             continue
         out.append({"ll": np.column_stack([prof.lat[a:b + 1], prof.lon[a:b + 1]]).round(6).tolist(),
-                    "p": _fmt(np.nanmin(e.pressure_head[a:b + 1])),
-                    "ps": _fmt(np.nanmax(e.static_pressure_head[a:b + 1])),
-                    "pipe": label[a], "ch": _fmt(prof.chainage_m[a], 0)})
+                    "p": json_number(np.nanmin(e.pressure_head[a:b + 1]), 2),
+                    "ps": json_number(np.nanmax(e.static_pressure_head[a:b + 1]), 2),
+                    "pipe": label[a], "ch": json_number(prof.chainage_m[a], 0)})
     return out
 
 
@@ -181,7 +177,7 @@ def _profile_panel(plan) -> dict:
     idx = _take(prof.n, keep, PANEL_POINTS)
 
     def col(a):
-        return [_fmt(v) for v in np.asarray(a)[idx]]
+        return [json_number(v, 2) for v in np.asarray(a)[idx]]
     return {"chainage": col(prof.chainage_m), "ground": col(prof.ground_m),
             "pipe": col(prof.pipe_m), "static": col(e.static_head), "hgl": col(e.hgl),
             "pressure": col(e.pressure_head)}
@@ -191,30 +187,30 @@ def _points(plan) -> list[dict]:
     prof = plan.profile
 
     def ll(i):
-        return [_fmt(prof.lat[i], 6), _fmt(prof.lon[i], 6)]
-    pts = [{"kind": f.kind, "chainage": _fmt(f.chainage_m, 0), "z": _fmt(f.elevation_m, 1),
+        return [json_number(prof.lat[i], 6), json_number(prof.lon[i], 6)]
+    pts = [{"kind": f.kind, "chainage": json_number(f.chainage_m, 0), "z": json_number(f.elevation_m, 1),
             "rule": f.rule, "ll": ll(f.index)} for f in plan.features
            if f.kind != "break_pressure_tank"]
-    pts += [{"kind": "break_pressure_tank", "chainage": _fmt(t.chainage_m, 0),
-             "z": _fmt(t.water_level_m, 1), "rule": t.rule, "ll": ll(t.index), "name": t.name}
+    pts += [{"kind": "break_pressure_tank", "chainage": json_number(t.chainage_m, 0),
+             "z": json_number(t.water_level_m, 1), "rule": t.rule, "ll": ll(t.index), "name": t.name}
             for t in plan.tanks]
-    pts += [{"kind": "outlet", "name": o.name, "chainage": _fmt(o.chainage_m, 0),
-             "z": _fmt(o.ground_m, 1), "residual": _fmt(o.pressure_head_m, 1),
-             "min": _fmt(o.min_pressure_m, 1), "ok": bool(o.ok), "ll": ll(o.index)}
+    pts += [{"kind": "outlet", "name": o.name, "chainage": json_number(o.chainage_m, 0),
+             "z": json_number(o.ground_m, 1), "residual": json_number(o.pressure_head_m, 1),
+             "min": json_number(o.min_pressure_m, 1), "ok": bool(o.ok), "ll": ll(o.index)}
             for o in plan.outlets]
     return pts
 
 
 def _findings(findings) -> list[dict]:
     return [{"severity": f.severity, "code": f.code, "message": f.message, "remedy": f.remedy,
-             "chainage": None if f.chainage_m is None else _fmt(f.chainage_m, 0)}
+             "chainage": None if f.chainage_m is None else json_number(f.chainage_m, 0)}
             for f in findings]
 
 
 def _line_summary(plan) -> dict:
-    return {"length_m": _fmt(plan.profile.length_m, 1), "profile": _profile_panel(plan),
+    return {"length_m": json_number(plan.profile.length_m, 1), "profile": _profile_panel(plan),
             "points": _points(plan),
-            "stretches": [{"from": _fmt(s.chainage_m, 0), "to": _fmt(s.chainage_end_m, 0),
+            "stretches": [{"from": json_number(s.chainage_m, 0), "to": json_number(s.chainage_end_m, 0),
                            "pipe": s.option.label} for s in plan.stretches]}
 
 
@@ -237,10 +233,10 @@ def summarise(plan) -> dict:
         pieces, points, findings = _pieces(plan, ROUTE_PIECES), _points(plan), plan.findings
         length = plan.profile.length_m
     sizing = plan.sizing
-    return {"ok": True, "mode": plan.mode, "length_m": _fmt(length, 1),
-            "cost": _fmt(plan.pipe_cost, 0) if plan.mode == "design" else None,
-            "bound": _fmt(sizing.lower_bound, 0) if sizing is not None else None,
-            "flow_lps": _fmt(plan.total_flow_m3s / LPS, 2),
+    return {"ok": True, "mode": plan.mode, "length_m": json_number(length, 1),
+            "cost": json_number(plan.pipe_cost, 0) if plan.mode == "design" else None,
+            "bound": json_number(sizing.lower_bound, 0) if sizing is not None else None,
+            "flow_lps": json_number(plan.total_flow_m3s / LPS, 2),
             "errors": sum(f.severity == "error" for f in findings),
             "warnings": sum(f.severity == "warning" for f in findings),
             "findings": _findings(findings), "pieces": pieces, "points": points,

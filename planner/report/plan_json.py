@@ -37,10 +37,14 @@ def _r(values, digits):
     return [None if not math.isfinite(v) else (0.0 if v == 0 else float(v)) for v in arr]
 
 
-def _f(value, digits=3):
+def json_number(value, digits=3):
+    """A float rounded to ``digits`` for JSON, or None for a missing or non-finite value."""
     if value is None or not math.isfinite(value):
         return None
     return round(float(value), digits)
+
+
+_f = json_number          # the short name used for the many fields below
 
 
 def plan_to_dict(plan: Plan) -> dict:
