@@ -319,13 +319,16 @@ def gravity_reachable(top_level_m: float, pipe_start_m: float,
 PROBABILITY_WARN = 0.10
 
 
-def check_uncertainty(u) -> list[Finding]:
+def check_uncertainty(u, path: str | None = None) -> list[Finding]:
     """Warnings where DEM error makes a limit uncertain, and the margin to add.
 
     ``u`` is a :class:`planner.design.uncertainty.Uncertainty`.  A limit is warned about
-    when it breaks in more than :data:`PROBABILITY_WARN` of the realisations.
+    when it breaks in more than :data:`PROBABILITY_WARN` of the realisations.  On a tree,
+    ``path`` names the path from the source whose chainages the findings use (outlets
+    are named by their own names and need no path).
     """
     m = u.model
+    on = f"path {path}: " if path else ""
     short = f"DEM error sigma {m.sigma_m:.1f} m"
     basis = (f"DEM vertical error sigma {m.sigma_m:.1f} m, correlated over {m.correlation_m:,.0f} m "
              f"({m.source}); {u.realisations:,} realisations")
@@ -340,18 +343,18 @@ def check_uncertainty(u) -> list[Finding]:
     for chainage, p in u.crests:
         if p > PROBABILITY_WARN:
             out.append(Finding("warning", "dem-uncertainty",
-                               f"crest at chainage {chainage:,.0f} m: {p:.0%} chance that it rises "
+                               f"{on}crest at chainage {chainage:,.0f} m: {p:.0%} chance that it rises "
                                f"above the hydraulic grade line ({short})",
                                "survey this crest; lower the pipe or re-route if it is confirmed",
                                chainage, chainage))
     for a, b, label, p in u.stretches:
         if p > PROBABILITY_WARN:
             out.append(Finding("warning", "dem-uncertainty",
-                               f"{label} from {a:,.0f} to {b:,.0f} m: {p:.0%} chance that the static "
+                               f"{on}{label} from {a:,.0f} to {b:,.0f} m: {p:.0%} chance that the static "
                                f"pressure exceeds its rating somewhere ({short})",
                                "use the next pressure class there, or survey the low points", a, b))
     out.append(Finding("note", "dem-uncertainty",
-                       f"with {basis}: {u.p_any_outlet_short:.0%} chance that some outlet is "
+                       f"{on}with {basis}: {u.p_any_outlet_short:.0%} chance that some outlet is "
                        f"short of its minimum pressure; to be 95 % sure, add {u.margin_m:.1f} m to "
                        f"outlet minimum pressures and allow {u.static_margin_m:.1f} m more static "
                        "pressure than the DEM gives",

@@ -642,11 +642,8 @@ def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
                              source_moves=sc.source.top_level_m is None)
         name = plan.path_name(k)
         out.append((name, u))
-        for f in check_uncertainty(u):
-            # chainages are along the path: say which; an outlet is named once
-            if not f.message.startswith("outlet "):
-                f = replace(f, message=f"path {name}: {f.message}")
-            if f.message not in seen:
+        for f in check_uncertainty(u, path=name):
+            if f.message not in seen:                 # an outlet on several paths: once
                 seen.add(f.message)
                 found.append(f)
     found.sort(key=lambda f: (SEVERITY_ORDER[f.severity], f.message))
