@@ -71,8 +71,7 @@ def _prepare(case, tmp_path, demo_folder, dems):
         assert old in text, f"{case['id']}: {old!r} is not in the base scenario"
         text = text.replace(old, new)
     if "append" in case:
-        text = text.replace("[criteria]\n", "[criteria]\n" + case["append"]) \
-            if case["append"].startswith("velocity") else text + case["append"]
+        text += case["append"]          # the base scenarios end with their [criteria] table
     scenario = work / "scenario.toml"
     scenario.write_text(text, encoding="utf-8")
     return scenario, route, dem_path
