@@ -294,9 +294,10 @@ def gravity_reachable(top_level_m: float, pipe_start_m: float,
 
     Notes
     -----
-    Water runs downhill only: a tap above the source's water level gets nothing, and
-    a source whose water stands below its outlet pipe feeds nothing (energy balance,
-    e.g. Jordan, "A Handbook of Gravity-Flow Water Systems", 1980, ch. 6).
+    Water runs downhill only: with no pump, the energy line falls from the source's
+    water level, so a tap above that level gets nothing, and a source whose water
+    stands below its outlet pipe feeds nothing (the energy balance of the line itself;
+    no empirical rule is involved).
     """
     problems = []
     if top_level_m <= pipe_start_m:
