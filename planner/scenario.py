@@ -263,8 +263,8 @@ DEFAULT_OUTLET_MIN_PRESSURE_M = 10.0
 #: Outlet flows above this are warned about as likely unit mistakes [L/s] (common
 #: practice: rural gravity supply and irrigation mains carry 0.1 to some tens of L/s).
 LARGE_FLOW_LPS = 200.0
-#: Pipe diameters below this are warned about as likely metres [mm] (the smallest
-#: catalogue pipe, PE 16 mm, ISO 4427-2).
+#: Pipe diameters below this are warned about as likely metres [mm] (common practice:
+#: no water-supply pipe is that small; ISO 4427-2 starts at 16 mm OD, from memory).
 SMALL_DIAMETER_MM = 10.0
 
 
@@ -557,7 +557,7 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                       revision=dr.get("revision", "A"), date=dr.get("date"))
     from .design.uncertainty import PRODUCTS
     u = sec["uncertainty"]
-    if "product" in u and u["product"] not in PRODUCTS:
+    if "product" in u and u["product"] not in PRODUCTS and "sigma_m" not in u:
         close = difflib.get_close_matches(u["product"], PRODUCTS, n=1)
         problems.add("uncertainty.product", f"unknown DEM product {u['product']!r}"
                      + (f"; did you mean {close[0]!r}?" if close else "")

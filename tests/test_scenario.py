@@ -104,3 +104,17 @@ def test_outlet_demand_tables(tmp_path):
                        ('flow_lps = 1\ndemand = { kind = "taps", taps = 2 }', "exactly one of")]:
         with pytest.raises(InputError, match=match):
             load_scenario(write(tmp_path, GOOD.replace("flow_lps = 0.5", bad)))
+
+
+def test_uncertainty_product_must_be_known_unless_sigma_is_given(demo_folder, tmp_path):
+    from planner.errors import InputError
+    from planner.scenario import load_scenario
+
+    text = (demo_folder / "scenario.toml").read_text()
+    bad = text.replace('product = "copernicus-glo30"', 'product = "copernicus-glo90"')
+    (tmp_path / "a.toml").write_text(bad)
+    with pytest.raises(InputError, match="did you mean 'copernicus-glo30'"):
+        load_scenario(tmp_path / "a.toml")
+    (tmp_path / "b.toml").write_text(bad.replace('product = "copernicus-glo90"',
+                                                 'product = "copernicus-glo90"\nsigma_m = 2.0'))
+    assert load_scenario(tmp_path / "b.toml").uncertainty.sigma_m == 2.0
