@@ -77,9 +77,9 @@ def make_problem(seed: int = 0, links: int = 500, seg: int = 10):
     return SizingProblem(
         splits=np.arange(n), position=position, unit_loss=unit_loss, allowed=allowed,
         cost=np.array([o.cost_per_m for o in opts]), group=group, reaches=reaches,
-        start_energy=np.array([top - 0.5 if p < 0 else np.nan for p in parents]),
-        min_energy=pipe + np.minimum(5.0, (top - pipe) / 2), arrival_min_energy=np.full(links, -np.inf),
-        fitting_loss=np.zeros(n), parent_point=np.array(parent_pt)), len(opts), int(group.max() + 1)
+        start_level=np.array([top - 0.5 if p < 0 else np.nan for p in parents]),
+        min_head=pipe + np.minimum(5.0, (top - pipe) / 2), arrival_min_head=np.full(links, -np.inf),
+        point_k=np.zeros(n), velocity_head=np.zeros_like(unit_loss), start_k=np.zeros(len(reaches)), parent_point=np.array(parent_pt)), len(opts), int(group.max() + 1)
 
 
 def child(kind: str) -> dict:

@@ -128,9 +128,7 @@ def _report(plan, written):
         if o.basis != "flow given":
             click.echo(f"          design flow: {o.basis}")
     if plan.stretches and plan.mode == "design":
-        click.echo(f"  pipe ({plan.sizing.method}; cost {plan.pipe_cost:,.0f}, "
-                   f"{plan.sizing.gap * 100:.2g} % above the split-pipe bound "
-                   f"{plan.sizing.lower_bound:,.0f}):")
+        click.echo(f"  pipe ({plan.sizing.summary}):")
         for st in plan.stretches:
             click.echo(f"    {st.chainage_m:>8,.0f} to {st.chainage_end_m:>8,.0f} m  "
                        f"{st.option.label:<26} {st.length_m:>8,.1f} m  static max "
@@ -171,8 +169,7 @@ def _report_network(plan, written):
     from .units import LPS
 
     click.echo(f"{plan.scenario.project.name}")
-    how = (f" ({plan.sizing.method}, {plan.sizing.gap * 100:.2g} % above the bound "
-           f"{plan.sizing.lower_bound:,.0f})" if plan.sizing is not None else " (pipes given)")
+    how = f" ({plan.sizing.summary})" if plan.sizing is not None else " (pipes given)"
     click.echo(f"  {len(plan.links)} links, design flow {plan.total_flow_m3s / LPS:.2f} L/s, pipe "
                f"cost {plan.pipe_cost:,.0f}{how}")
     for lk, flow in zip(plan.links, plan.link_flow_m3s):

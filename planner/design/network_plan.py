@@ -28,16 +28,17 @@ from ..geo.terrain import open_dem
 from ..hydraulics import surge as sg
 from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, segment_flows
-from ..hydraulics.network import LinkData, accumulate_flows, tree_energy
+from ..hydraulics.network import LinkData, accumulate_flows, surge_path_lengths, tree_energy
 from ..scenario import Scenario
 from .checks import Finding, check_uncertainty, check_yield, gravity_reachable
 from .uncertainty import Uncertainty, line_uncertainty, model_for
 from .features import Feature, place_features
-from .plan import (SEVERITY_ORDER, OutletResult, Stretch, TankResult, _build_line, _surge_pool,
+from .plan import (RECHECK_ROUNDS, finding_order, OutletResult, Stretch, TankResult,
+                   _build_line, _surge_pool, solve_design,
                    build_profile,
                    _candidate_data, _cheapest_per_size, _split_points, _stretches,
                    _wave_speeds, line_findings, pipe_options, static_limit)
-from .sizing import SizingProblem, SizingResult, best_single_size, solve_sizing, solve_whole_pieces
+from .sizing import SizingProblem, SizingResult, best_single_size
 from .tanks import TankSite, place_tanks
 
 
@@ -219,7 +220,7 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
         if j <= 0 or j >= profiles[k].n - 1:
             raise InputError(f"break_pressure_tanks[{i}]: a tank must lie inside a link, not at "
                              "a junction or an end")
-        fixed[k].append((j, float(profiles[k].ground_m[j] + tk.water_above_ground_m)))
+        fixed[k].append((j, float(profiles[k].ground_m[j] + tk.water_above_ground_m), tk.name))
     point_k = [np.zeros(p.n) for p in profiles]
     for i, f in enumerate(sc.fittings, start=1):
         k, j = _on_link(net, profiles, names, f.link, f.chainage_m, f"fittings[{i}]",
@@ -248,35 +249,32 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
     auto = design and d.auto_tanks
     margin = 0.0
     for _ in range(12):
-        sites, start_level, allowed, surfaces, since, gaps = [], [], [], [], [], []
+        sites, allowed, surfaces, gaps = [], [], [], []
         for k, prof in enumerate(profiles):
             lvl = top if parents[k] < 0 else surfaces[parents[k]][-1].static_level
             if auto:
                 s_k = place_tanks(prof.chainage_m, prof.ground_m, prof.pipe_m, source_level=lvl,
                                   limit_head=limit - margin, water_depth=d.tank_water_depth_m,
-                                  fixed=fixed[k],
+                                  fixed=[(j, level) for j, level, _ in fixed[k]],
                                   limit_reason=reason + (f", less {margin:.0f} m for surge"
                                                          if margin else ""))
             else:
                 s_k = [TankSite(j, level, "placed by the engineer", fixed=True)
-                       for j, level in sorted(fixed[k])]
+                       for j, level, _ in sorted(fixed[k])]
             sites.append(s_k)
-            start_level.append(lvl)
-            surf = [FreeSurface(0, lvl, np.nan)] + [FreeSurface(s.index, s.level, s.level) for s in s_k]
-            surfaces.append(surf)
-            # pipe length from the free surface feeding each segment (for surge)
-            upstream = 0.0 if parents[k] < 0 else since[parents[k]]
-            idx = [f.index for f in surf]
-            seg_r = np.searchsorted(idx, np.arange(prof.n - 1), side="right") - 1
-            sl = prof.slope_length_m
-            from_surface = np.array([sl[prof.n - 1] - sl[idx[r]] + (upstream if r == 0 else 0.0)
-                                     for r in seg_r])
-            since.append(float(sl[-1] - sl[idx[-1]] + (upstream if len(idx) == 1 else 0.0)))
+            surfaces.append([FreeSurface(0, lvl, np.nan)]
+                            + [FreeSurface(s.index, s.level, s.level) for s in s_k])
+        # the wave's path from the free surface feeding each reach (for surge)
+        surge_len = surge_path_lengths([p.slope_length_m for p in profiles], parents,
+                                       [[f.index for f in surf] for surf in surfaces])
+        for k, prof in enumerate(profiles):
+            surf = surfaces[k]
+            seg_r = np.searchsorted([f.index for f in surf], np.arange(prof.n - 1), side="right") - 1
             level = np.array([surf[r].static_level for r in seg_r])
             static = level - np.minimum(prof.pipe_m[:-1], prof.pipe_m[1:])
             v, hv, loss = cand[k]
             surge = np.where(np.isfinite(wave)[None, :],
-                             sg.surge_head(from_surface[:, None], v, wave[None, :],
+                             sg.surge_head(surge_len[k][seg_r][:, None], v, wave[None, :],
                                            cr.valve_closure_s), 0.0)
             ok_static = static[:, None] <= rating_head[None, :]
             fits = cr.surge_rating_factor * rating_head[None, :] - static[:, None] - surge
@@ -303,12 +301,13 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
     # -- one programme for the whole tree
     reaches_local = [[(a, b) for a, b in zip([f.index for f in surf], [f.index for f in surf][1:] + [prof.n - 1])]
                      for surf, prof in zip(surfaces, profiles)]
-    required = []
+    required, line_req = [], []
     for k, prof in enumerate(profiles):
         idx = [f.index for f in surfaces[k]]
         pr = np.searchsorted(idx, np.arange(prof.n), side="right") - 1
         static_p = np.array([surfaces[k][r].static_level for r in pr]) - prof.pipe_m
         req = np.minimum(cr.min_line_pressure_m, np.maximum(static_p, 0.0) / 2.0)
+        line_req.append(req.copy())
         for o, kk, j in placed:
             if kk == k:
                 req[j] = max(req[j], o.min_pressure_m)
@@ -317,12 +316,12 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
     if not design:
         built = [(prof, np.zeros(prof.n - 1, dtype=np.int64)) for prof in profiles]
         energies, remaps, req_r = _tree_exact(profiles, built, parents, surfaces, placed, children,
-                                              total_in, options, required, top, low, nu, cr,
-                                              point_k)
+                                              total_in, options, required, line_req, top, low,
+                                              nu, cr, point_k)
         sizing, single, converged = None, np.inf, True
         return _results(sc, net, names, parents, children, profiles, built, energies, remaps,
                         req_r, sites, surfaces, placed, options, rating_head, wave, sizing, single,
-                        converged, top, low, rho, nu, total_in)
+                        converged, top, low, rho, nu, total_in, surge_len, fixed)
     splits_local = [_split_points(prof, reaches_local[k], [(o, j) for o, kk, j in placed if kk == k],
                                   point_k[k], d.split_spacing_m)
                     for k, prof in enumerate(profiles)]
@@ -334,47 +333,39 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
     for o, kk, j in placed:
         if o.max_pressure_m is not None:
             caps[kk][j] = o.max_pressure_m
-    hv_k = [np.min(np.where(ak, cand[k][1][sp[:-1]], np.inf), axis=1)
-            for k, (ak, sp) in enumerate(zip(allowed_k, splits_local))]
     final = "reach" if d.one_size_per_reach else "pieces" if d.whole_pieces else "lp"
     converged = False
-    for stage in dict.fromkeys(("lp", final)):
-        for _ in range(12):
-            problem, piece_rows = _tree_problem(profiles, parents, surfaces, reaches_local,
-                                                splits_local, allowed_k, cand, hv_k, required,
-                                                extra, offsets, options, top, low, cr, caps,
-                                                point_k)
-            sizing = (solve_sizing(problem, whole="reach") if stage == "reach" else
-                      solve_whole_pieces(problem) if stage == "pieces" else solve_sizing(problem))
-            built = [_build_line(prof, sp, sizing.lengths[rows], options)
-                     for prof, sp, rows in zip(profiles, splits_local, piece_rows)]
-            energies, remaps, req_r = _tree_exact(profiles, built, parents, surfaces, placed,
-                                                  children, total_in, options, required, top,
-                                                  low, nu, cr, point_k)
-            converged = True
-            for k in range(L):
-                short = req_r[k] - energies[k].pressure_head
-                used = np.max(np.where(sizing.lengths[piece_rows[k]] > 1e-9,
-                                       cand[k][1][splits_local[k][:-1]], 0.0), axis=1)
-                if np.any(short > 5e-4) or np.any(used > hv_k[k] + 1e-9):
-                    converged = False
-                hv_k[k] = np.maximum(hv_k[k], used)
-                rch = built[k][0].chainage_m
-                for i in np.flatnonzero(short > 5e-4):
-                    j = min(int(np.searchsorted(profiles[k].chainage_m, rch[i] - 1e-9)),
-                            profiles[k].n - 1)
-                    extra[k][j] += short[i] + 1e-3
-            if converged:
-                break
+    for _ in range(RECHECK_ROUNDS):
+        problem, piece_rows = _tree_problem(profiles, parents, surfaces, reaches_local,
+                                            splits_local, allowed_k, cand, required, extra,
+                                            offsets, options, low, cr, caps, point_k)
+        sizing = solve_design(problem, final, lambda i: _where_point(i, offsets, profiles, names))
+        built = [_build_line(prof, sp, sizing.lengths[rows], options)
+                 for prof, sp, rows in zip(profiles, splits_local, piece_rows)]
+        energies, remaps, req_r = _tree_exact(profiles, built, parents, surfaces, placed,
+                                              children, total_in, options, required, line_req,
+                                              top, low, nu, cr, point_k)
+        converged = True
+        for k in range(L):
+            short = req_r[k] - energies[k].pressure_head
+            if np.any(short > 5e-4):
+                converged = False
+            rch = built[k][0].chainage_m
+            for i in np.flatnonzero(short > 5e-4):
+                j = min(int(np.searchsorted(profiles[k].chainage_m, rch[i] - 1e-9)),
+                        profiles[k].n - 1)
+                extra[k][j] += short[i] + 1e-3
+        if converged:
+            break
     single = best_single_size(problem)[0]
     return _results(sc, net, names, parents, children, profiles, built, energies, remaps, req_r,
                     sites, surfaces, placed, options, rating_head, wave, sizing, single,
-                    converged, top, low, rho, nu, total_in)
+                    converged, top, low, rho, nu, total_in, surge_len, fixed)
 
 
 def _results(sc, net, names, parents, children, profiles, built, energies, remaps, req_r, sites,
              surfaces, placed, options, rating_head, wave, sizing, single, converged, top, low,
-             rho, nu, total_in) -> NetworkPlan:
+             rho, nu, total_in, surge_len, fixed) -> NetworkPlan:
     """Per-link results, checks and the NetworkPlan (design or check mode)."""
     cr = sc.criteria
     L = len(profiles)
@@ -394,6 +385,7 @@ def _results(sc, net, names, parents, children, profiles, built, energies, remap
         surf_r = [int(remap[f.index]) for f in surfaces[k]]
         reaches_r = list(zip(surf_r, surf_r[1:] + [refined.n - 1]))
         stretches = _stretches(refined, e, seg_opt, options, seg_rating, reaches_r=reaches_r,
+                               surge_len=surge_len[k],
                                wave=wave, cr=cr)
         od = np.array([(o.outside_diameter if np.isfinite(o.outside_diameter) else o.inside_diameter)
                        * 1e3 for o in (options[j] for j in np.append(seg_opt, seg_opt[-1]))])
@@ -403,8 +395,12 @@ def _results(sc, net, names, parents, children, profiles, built, energies, remap
                                      spacing_m=cr.air_valve_spacing_m, long_ascent_m=cr.long_ascent_m))
         tanks = []
         for s in sites[k]:
-            auto_no += 1
-            tanks.append(TankResult(name=f"BPT {auto_no} (placed)", chainage_m=float(profiles[k].chainage_m[s.index]),
+            if s.fixed:
+                name = next(nm for j, _, nm in fixed[k] if j == s.index)
+            else:
+                auto_no += 1
+                name = f"BPT {auto_no} (placed)"
+            tanks.append(TankResult(name=name, chainage_m=float(profiles[k].chainage_m[s.index]),
                                     index=int(remap[s.index]), water_level_m=s.level,
                                     arrival_hgl_m=float(e.arrival_hgl[remap[s.index]]), rule=s.rule))
         outs = tuple(OutletResult(
@@ -433,15 +429,14 @@ def _results(sc, net, names, parents, children, profiles, built, energies, remap
                 lk.profile.length_m, lk.profile.length_m))
     if not converged:
         findings.append(Finding("warning", "sizing-recheck", "the sized tree still falls short of "
-                                "a limit after 12 rechecks (see the other findings)",
+                                f"a limit after {RECHECK_ROUNDS} rechecks (see the other findings)",
                                 "use a finer design.split_spacing_m"))
     if sizing is not None:
         findings.append(Finding(
-            "note", "sizing", f"sizes and classes chosen by the {sizing.method} at least cost "
-            f"({sizing.cost:,.0f}, optimality gap {sizing.gap * 100:.2g} %); "
+            "note", "sizing", f"sizes and classes chosen at least cost by the {sizing.summary}; "
             + (f"the cheapest single size would cost {single:,.0f}" if np.isfinite(single)
                else "no single size meets every limit")))
-    findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity], f.message))
+    findings.sort(key=finding_order)
     return _with_uncertainty(NetworkPlan(scenario=sc, network=net, links=tuple(link_plans),
                        source_top_level_m=float(top), source_low_level_m=float(low),
                        total_flow_m3s=total, density=float(rho), kinematic_viscosity=float(nu),
@@ -451,62 +446,69 @@ def _results(sc, net, names, parents, children, profiles, built, energies, remap
                        link_flow_m3s=tuple(float(x) for x in total_in)))
 
 
+def _where_point(i: int, offsets, profiles, names) -> str:
+    """A point of the tree's programme in words: its link and chainage."""
+    k = int(np.searchsorted(offsets, i, side="right") - 1)
+    return f"on {names[k]} at chainage {profiles[k].chainage_m[i - offsets[k]]:,.0f} m"
+
+
 def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allowed_k, cand,
-                  hv_k, required, extra, offsets, options, top, low, cr, caps, point_k):
-    """The split-pipe programme of the whole tree: links numbered one after another."""
+                  required, extra, offsets, options, low, cr, caps, point_k):
+    """The sizing programme of the whole tree: links numbered one after another."""
     J = len(options)
-    split_g, allowed_rows, loss_rows, rows_of = [], [], [], []
-    reaches, start, arrival, parent_pt = [], [], [], []
-    min_e, pos, fit, max_e = [], [], [], []
+    split_g, allowed_rows, loss_rows, hv_rows, rows_of = [], [], [], [], []
+    reaches, start, start_k, arrival, parent_pt = [], [], [], [], []
+    min_h, pos, pk, max_h = [], [], [], []
     row = 0
     for k, prof in enumerate(profiles):
         sp = splits_local[k]
         if k > 0:                                   # the piece joining two links: in no reach
             allowed_rows.append(np.zeros((1, J), dtype=bool))
             loss_rows.append(np.zeros((1, J)))
+            hv_rows.append(np.zeros((1, J)))
             row += 1
         split_g.append(sp + offsets[k])
         allowed_rows.append(allowed_k[k])
         loss_rows.append(np.nan_to_num(cand[k][2][sp[:-1]], nan=0.0))
+        hv_rows.append(np.nan_to_num(cand[k][1][sp[:-1]], nan=0.0))
         rows_of.append(np.arange(row, row + sp.size - 1))
         row += sp.size - 1
-        piece_of_seg = np.searchsorted(sp, np.arange(prof.n - 1), side="right") - 1
-        hv_seg = hv_k[k][piece_of_seg]
-        hv_pt = np.append(hv_seg, hv_seg[-1])
-        min_e.append(prof.pipe_m + required[k] + extra[k] + hv_pt + 1e-3)
-        max_e.append(prof.pipe_m + caps[k])
+        # 1 mm above each limit, so that rounding never shows a designed point as short
+        min_h.append(prof.pipe_m + required[k] + extra[k] + 1e-3)
+        max_h.append(prof.pipe_m + caps[k])
         pos.append(prof.slope_length_m)
-        fit.append(point_k[k] * hv_pt)
+        pk.append(point_k[k])
         surf = surfaces[k]
         for r, (a, b) in enumerate(reaches_local[k]):
             reaches.append((int(a + offsets[k]), int(b + offsets[k])))
             if r == 0 and parents[k] >= 0:
                 parent_pt.append(int(offsets[parents[k]] + profiles[parents[k]].n - 1))
                 start.append(np.nan)
+                start_k.append(point_k[k][a])
             else:
-                level = low if (r == 0 and parents[k] < 0) else surf[r].operating_level
                 parent_pt.append(-1)
-                start.append(level - (cr.entrance_k + point_k[k][a]) * hv_pt[a])
-            if r + 1 < len(surf):
-                arrival.append(surf[r + 1].static_level + cr.tank_inlet_head_m + hv_seg[b - 1] + 1e-3)
-            else:
-                arrival.append(-np.inf)
+                start.append(low if (r == 0 and parents[k] < 0) else surf[r].operating_level)
+                start_k.append(cr.entrance_k + point_k[k][a])
+            arrival.append(surf[r + 1].static_level + cr.tank_inlet_head_m + 1e-3
+                           if r + 1 < len(surf) else -np.inf)
     groups = {}
     group = np.array([groups.setdefault((o.material, round(o.outside_diameter, 6)), len(groups))
                       for o in options])
     problem = SizingProblem(
         splits=np.concatenate(split_g), position=np.concatenate(pos),
-        unit_loss=np.vstack(loss_rows), allowed=np.vstack(allowed_rows),
-        cost=np.array([o.cost_per_m for o in options]), group=group, reaches=reaches,
-        start_energy=np.array(start), min_energy=np.concatenate(min_e),
-        arrival_min_energy=np.array(arrival), fitting_loss=np.concatenate(fit),
-        parent_point=np.array(parent_pt, dtype=np.int64), max_energy=np.concatenate(max_e))
+        unit_loss=np.vstack(loss_rows), velocity_head=np.vstack(hv_rows),
+        allowed=np.vstack(allowed_rows), cost=np.array([o.cost_per_m for o in options]),
+        group=group, reaches=reaches, start_level=np.array(start), start_k=np.array(start_k),
+        min_head=np.concatenate(min_h), arrival_min_head=np.array(arrival),
+        point_k=np.concatenate(pk), parent_point=np.array(parent_pt, dtype=np.int64),
+        max_head=np.concatenate(max_h))
     return problem, rows_of
 
 
 def _tree_exact(profiles, built, parents, surfaces, placed, children, total_in, options,
-                required, top, low, nu, cr, point_k):
-    """Energy lines of the built tree, exactly, and the pressure required at every point."""
+                required, line_req, top, low, nu, cr, point_k):
+    """Energy lines of the built tree, exactly, and the pressure required at every point
+    (at a size change, the line's requirement interpolated; outlets at their points)."""
     datas, remaps, reqs = [], [], []
     for k, (prof, (refined, seg_opt)) in enumerate(zip(profiles, built)):
         ch, rch = prof.chainage_m, refined.chainage_m
@@ -527,8 +529,7 @@ def _tree_exact(profiles, built, parents, surfaces, placed, children, total_in, 
         k_r[remap] = point_k[k]
         datas.append(LinkData(refined.slope_length_m, refined.pipe_m, flows, pipe,
                               parent=parents[k], tanks=tanks, point_k=k_r))
-        seg = np.clip(np.searchsorted(ch, rch, side="right") - 1, 0, ch.size - 2)
-        req = np.maximum(required[k][seg], required[k][seg + 1])
+        req = np.interp(refined.slope_length_m, prof.slope_length_m, line_req[k])
         req[remap] = required[k]
         remaps.append(remap)
         reqs.append(req)
@@ -646,5 +647,5 @@ def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
             if f.message not in seen:                 # an outlet on several paths: once
                 seen.add(f.message)
                 found.append(f)
-    found.sort(key=lambda f: (SEVERITY_ORDER[f.severity], f.message))
+    found.sort(key=finding_order)
     return replace(plan, uncertainty=tuple(out), findings=tuple(found))

@@ -14,7 +14,7 @@ tables); writing results is the report package's job.
 from __future__ import annotations
 
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from numpy.typing import NDArray
@@ -30,17 +30,28 @@ from ..hydraulics import friction as fr
 from ..hydraulics import surge as sg
 from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, LineEnergy, PipeHydraulics, line_energy, segment_flows
+from ..hydraulics.network import surge_path_lengths
 from ..scenario import Scenario
 from ..units import G
 from .checks import (Finding, _where, check_line, check_outlet, check_surge, check_tank,
                      check_uncertainty, check_yield, gravity_reachable, stretches as runs)
 from .features import Feature, place_features
 from .uncertainty import Uncertainty, line_uncertainty, model_for
-from .sizing import (SizingProblem, SizingResult, best_single_size, solve_sizing,
-                     solve_whole_pieces)
+from .sizing import (ARRIVAL, MAX, SizingInfeasible, SizingProblem, SizingResult,
+                     best_single_size, solve_sizing, solve_whole_pieces)
 from .tanks import TankSite, place_tanks
 
 SEVERITY_ORDER = {"error": 0, "warning": 1, "note": 2}
+
+
+def finding_order(f: Finding) -> tuple:
+    """How findings are listed, for lines and trees alike: errors first, then by chainage."""
+    return (SEVERITY_ORDER[f.severity], f.chainage_m if f.chainage_m is not None else -1.0,
+            f.message)
+
+
+#: Rounds of "solve, build, recheck every point, tighten where short" at most.
+RECHECK_ROUNDS = 12
 
 
 @dataclass(frozen=True)
@@ -316,7 +327,7 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
         seg_reach = np.searchsorted([f.index for f in surfaces], np.arange(n - 1), side="right") - 1
         seg_level = np.array([surfaces[r].static_level for r in seg_reach])
         seg_static = seg_level - np.minimum(prof.pipe_m[:-1], prof.pipe_m[1:])
-        reach_len = np.array([prof.slope_length_m[b] - prof.slope_length_m[a] for a, b in reaches])
+        reach_len = surge_path_lengths([prof.slope_length_m], [-1], [[f.index for f in surfaces]])[0]
         surge_cand = np.where(np.isfinite(wave)[None, :],
                               sg.surge_head(reach_len[seg_reach][:, None], v_cand, wave[None, :],
                                             cr.valve_closure_s), 0.0)
@@ -343,7 +354,8 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
             tank_names.append(f"BPT {auto_no} (placed)")
     pt_reach = np.searchsorted([f.index for f in surfaces], np.arange(n), side="right") - 1
     static_p = np.array([surfaces[r].static_level for r in pt_reach]) - prof.pipe_m
-    required = np.minimum(cr.min_line_pressure_m, np.maximum(static_p, 0.0) / 2.0)
+    line_required = np.minimum(cr.min_line_pressure_m, np.maximum(static_p, 0.0) / 2.0)
+    required = line_required.copy()
     for o, j in placed:
         required[j] = max(required[j], o.min_pressure_m)
 
@@ -355,16 +367,11 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     else:
         _feasibility(prof, options, allowed, flows, surfaces, reaches, required, point_k,
                      seg_static, rating_head, v_cand, nu, cr)
-        # velocity heads and fitting losses depend on the sizes chosen: start from the
-        # largest admissible bores (smallest velocity heads) and raise them to those of
-        # the pipes chosen until the choice no longer changes them (monotone, so it ends)
         splits = _split_points(prof, reaches, placed, point_k, sc.design.split_spacing_m)
-        piece_of_seg = np.searchsorted(splits, np.arange(n - 1), side="right") - 1
         # a sub-stretch admits a candidate only if all its segments do; of each size only
         # the cheapest class it admits can be part of a least-cost design
         allowed_k = _cheapest_per_size(np.logical_and.reduceat(allowed, splits[:-1], axis=0),
                                        options)
-        hv_k = np.min(np.where(allowed_k, hv_cand[splits[:-1]], np.inf), axis=1)
         extra = np.zeros(n)
         # an outlet's own maximum pressure is a limit of the design (head burnt in the pipe)
         max_pressure = None
@@ -375,41 +382,32 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                     max_pressure[j] = o.max_pressure_m
         final = ("reach" if sc.design.one_size_per_reach else
                  "pieces" if sc.design.whole_pieces else "lp")
-        # the LP converges the velocity heads and tightenings cheaply; the final method
-        # (a MILP where the rules ask for whole choices) then starts from them
+        # the programme carries the velocity heads (exactly for a sub-stretch of one
+        # pipe); the built line is rechecked at every point, size changes included, and
+        # only where it still falls short (the chord and the mean velocity head of a
+        # sub-stretch split between two sizes) is the programme tightened there
         converged = False
-        for stage in dict.fromkeys(("lp", final)):
-            for _ in range(12):
-                problem = _problem(prof, options, allowed_k, loss_cand[splits[:-1]],
-                                   hv_k[piece_of_seg], surfaces, reaches, required + extra,
-                                   point_k, cr, splits, max_pressure)
-                sizing = (solve_sizing(problem, whole="reach") if stage == "reach" else
-                          solve_whole_pieces(problem) if stage == "pieces" else
-                          solve_sizing(problem))
-                refined, seg_opt = _build_line(prof, problem.splits, sizing.lengths, options)
-                energy, remap, surfaces_r, req_r = _exact_energy(
-                    prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr)
-                # the programme checks pressure with the velocity heads it was told; recheck
-                # every point of the built line (size changes included) and tighten the
-                # programme where the built line falls short
-                short = req_r - energy.pressure_head
-                used = np.max(np.where(sizing.lengths > 1e-9, hv_cand[splits[:-1]], 0.0), axis=1)
-                # a design that passes the recheck is valid; when the LP is the final method
-                # that is enough, since assumed velocity heads at or below the built ones only
-                # loosen the programme (its optimum stays a lower bound).  Before a MILP the
-                # velocity heads are converged too, so that the MILP starts from them.
-                converged = bool(np.all(short <= 5e-4) and (
-                    (stage == "lp" and final == "lp") or np.all(used <= hv_k + 1e-9)))
-                if converged:
-                    break
-                hv_k = np.maximum(hv_k, used)
-                for i in np.flatnonzero(short > 5e-4):
-                    j = min(int(np.searchsorted(ch, refined.chainage_m[i] - 1e-9)), n - 1)
-                    extra[j] += short[i] + 1e-3
+        for _ in range(RECHECK_ROUNDS):
+            problem = _problem(prof, options, allowed_k, loss_cand[splits[:-1]],
+                               hv_cand[splits[:-1]], surfaces, reaches, required + extra,
+                               point_k, cr, splits, max_pressure)
+            sizing = solve_design(problem, final, lambda i: f"at chainage {ch[i]:,.0f} m")
+            refined, seg_opt = _build_line(prof, problem.splits, sizing.lengths, options)
+            energy, remap, surfaces_r, req_r = _exact_energy(
+                prof, refined, seg_opt, options, surfaces, placed, point_k, required,
+                line_required, nu, cr)
+            short = req_r - energy.pressure_head
+            converged = bool(np.all(short <= 5e-4))
+            if converged:
+                break
+            for i in np.flatnonzero(short > 5e-4):
+                j = min(int(np.searchsorted(ch, refined.chainage_m[i] - 1e-9)), n - 1)
+                extra[j] += short[i] + 1e-3
         single_cost = best_single_size(problem)[0] if compare_single_size else None
     if not design:
         energy, remap, surfaces_r, req_r = _exact_energy(
-            prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr)
+            prof, refined, seg_opt, options, surfaces, placed, point_k, required,
+            line_required, nu, cr)
     rch = refined.chainage_m
     seg_rating = rating_head[seg_opt]
     pt_rating = np.minimum(np.append(seg_rating, seg_rating[-1]), np.insert(seg_rating, 0, seg_rating[0]))
@@ -426,7 +424,7 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
                              arrival_hgl_m=float(energy.arrival_hgl[remap[s.index]]), rule=s.rule)
                   for s, name in zip(sites, tank_names))
     stretches = _stretches(refined, energy, seg_opt, options, seg_rating, reaches_r=[
-        (int(remap[a]), int(remap[b])) for a, b in reaches], wave=wave, cr=cr)
+        (int(remap[a]), int(remap[b])) for a, b in reaches], wave=wave, cr=cr, surge_len=reach_len)
     od_pt = np.array([options[j].outside_diameter * 1e3 if np.isfinite(options[j].outside_diameter)
                       else options[j].inside_diameter * 1e3 for j in np.append(seg_opt, seg_opt[-1])])
     features = place_features(rch, refined.pipe_m, energy.hgl, od_pt,
@@ -445,20 +443,18 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
     if design and not converged:
         findings.append(Finding(
             "warning", "sizing-recheck",
-            "the sized line was rechecked point by point 12 times and still falls short of a "
-            "limit somewhere (see the other findings)",
+            f"the sized line was rechecked point by point {RECHECK_ROUNDS} times and still "
+            "falls short of a limit somewhere (see the other findings)",
             "use split_spacing_m = 0 (a split point at every profile point) or a finer spacing"))
     if design and sizing is not None:
         findings.append(Finding(
             "note", "sizing",
-            f"sizes and classes chosen by the {sizing.method} at least cost "
-            f"({sizing.cost:,.0f}, optimality gap {sizing.gap * 100:.2g} %)"
+            f"sizes and classes chosen at least cost by the {sizing.summary}"
             + ("" if single_cost is None else
                f"; the cheapest single size would cost {single_cost:,.0f}"
                if np.isfinite(single_cost) else "; no single size meets every limit")))
     findings += [Finding("note", "profile", note) for note in prof.notes]
-    findings.sort(key=lambda f: (SEVERITY_ORDER[f.severity],
-                                 f.chainage_m if f.chainage_m is not None else -1.0))
+    findings.sort(key=finding_order)
     plan = Plan(scenario=sc, profile=refined, energy=energy, outlets=outlets, tanks=tanks,
                 source_top_level_m=float(top), source_low_level_m=float(low),
                 total_flow_m3s=total, density=float(rho), kinematic_viscosity=float(nu),
@@ -483,17 +479,18 @@ def with_uncertainty(plan: Plan) -> Plan:
                          pins=[c for _, c, _ in plan.profile.pins],
                          pin_names=tuple(n for n, _, _ in plan.profile.pins))
     found = list(plan.findings) + check_uncertainty(u)
-    found.sort(key=lambda f: (SEVERITY_ORDER[f.severity],
-                              f.chainage_m if f.chainage_m is not None else -1.0))
+    found.sort(key=finding_order)
     return replace(plan, uncertainty=u, findings=tuple(found))
 
 
-def _exact_energy(prof, refined, seg_opt, options, surfaces, placed, point_k, required, nu, cr):
+def _exact_energy(prof, refined, seg_opt, options, surfaces, placed, point_k, required,
+                  line_required, nu, cr):
     """The energy line of a built line, exactly, on its (refined) profile.
 
     Returns the LineEnergy, the map from original to refined points, the free surfaces
-    on the refined profile and the pressure required at every refined point (at an
-    inserted point, the larger requirement of its segment's two ends).
+    on the refined profile and the pressure required at every refined point: at an
+    inserted point, the line's own requirement interpolated along the pipe (an
+    outlet's minimum holds at the outlet, not at a size change beside it).
     """
     ch, rch = prof.chainage_m, refined.chainage_m
     remap = np.searchsorted(rch, ch)
@@ -512,8 +509,7 @@ def _exact_energy(prof, refined, seg_opt, options, surfaces, placed, point_k, re
     energy = line_energy(refined.slope_length_m, refined.pipe_m, flows_r, pipe,
                          kinematic_viscosity=nu, surfaces=surfaces_r, entrance_k=cr.entrance_k,
                          point_k=k_r)
-    seg = np.clip(np.searchsorted(ch, rch, side="right") - 1, 0, ch.size - 2)
-    req_r = np.maximum(required[seg], required[seg + 1])
+    req_r = np.interp(refined.slope_length_m, prof.slope_length_m, line_required)
     req_r[remap] = required
     return energy, remap, surfaces_r, req_r
 
@@ -701,29 +697,27 @@ def _split_points(prof, reaches, placed, point_k, spacing):
     return np.array(sorted(p for p in pts if 0 <= p < n), dtype=np.int64)
 
 
-def _problem(prof, options, allowed_k, loss_k, hv_seg, surfaces, reaches, required, point_k,
+def _problem(prof, options, allowed_k, loss_k, hv_k, surfaces, reaches, required, point_k,
              cr, splits, max_pressure=None):
-    """The split-pipe programme for this line (see sizing.py).
+    """The sizing programme of this line (see sizing.py).
 
-    ``hv_seg`` is the velocity head assumed in each segment [m], for the velocity head
-    at the points and the fitting losses.
+    ``loss_k`` and ``hv_k`` are the friction slope and the velocity head of every
+    candidate in every piece [m/m, m]; the programme carries the velocity heads itself.
     """
-    hv_pt = np.append(hv_seg, hv_seg[-1])
-    start = np.array([f.operating_level - (cr.entrance_k + point_k[f.index]) * hv_pt[f.index]
-                      for f in surfaces])
-    arrival = np.array([surfaces[r + 1].static_level + cr.tank_inlet_head_m + hv_seg[b - 1] + 1e-3
-                        if r + 1 < len(surfaces) else -np.inf for r, (a, b) in enumerate(reaches)])
+    arrival = np.array([surfaces[r + 1].static_level + cr.tank_inlet_head_m + 1e-3
+                        if r + 1 < len(surfaces) else -np.inf for r in range(len(reaches))])
     groups = {}
     group = np.array([groups.setdefault((o.material, round(o.outside_diameter, 6)), len(groups))
                       for o in options])
     return SizingProblem(
         splits=splits, position=prof.slope_length_m, unit_loss=np.nan_to_num(loss_k, nan=0.0),
+        velocity_head=np.nan_to_num(hv_k, nan=0.0),
         allowed=allowed_k, cost=np.array([o.cost_per_m for o in options]), group=group,
-        reaches=reaches, start_energy=start,
+        reaches=reaches, start_level=np.array([f.operating_level for f in surfaces]),
+        start_k=np.array([cr.entrance_k + point_k[f.index] for f in surfaces]),
         # 1 mm above each limit, so that rounding never shows a designed point as short
-        min_energy=prof.pipe_m + required + hv_pt + 1e-3,
-        arrival_min_energy=arrival, fitting_loss=point_k * hv_pt,
-        max_energy=None if max_pressure is None else prof.pipe_m + max_pressure)
+        min_head=prof.pipe_m + required + 1e-3, arrival_min_head=arrival, point_k=point_k,
+        max_head=None if max_pressure is None else prof.pipe_m + max_pressure)
 
 
 def _build_line(prof: Profile, splits: NDArray, lengths: NDArray, options: list[PipeOption]):
@@ -757,8 +751,12 @@ def _build_line(prof: Profile, splits: NDArray, lengths: NDArray, options: list[
     return refined, seg_opt
 
 
-def _stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, cr):
-    """Runs of one option, with their cost, ratings, pressures and surge."""
+def _stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, cr, surge_len):
+    """Runs of one option, with their cost, ratings, pressures and surge.
+
+    ``surge_len`` is the wave's path length of each reach [m]
+    (:func:`~planner.hydraulics.network.surge_path_lengths`).
+    """
     out = []
     sl, ch = prof.slope_length_m, prof.chainage_m
     reach_of = np.zeros(prof.n - 1, dtype=np.int64)
@@ -774,9 +772,8 @@ def _stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, c
         a, b = start, s
         length = float(sl[b] - sl[a])
         r = int(reach_of[a])
-        ra, rb = reaches_r[r]
         v = float(np.max(energy.velocity[a:b]))
-        surge = float(sg.surge_head(sl[rb] - sl[ra], v, wave[j], cr.valve_closure_s)) \
+        surge = float(sg.surge_head(surge_len[r], v, wave[j], cr.valve_closure_s)) \
             if np.isfinite(wave[j]) else float("nan")
         out.append(Stretch(option=o, start_index=a, end_index=b, chainage_m=float(ch[a]),
                            chainage_end_m=float(ch[b]), length_m=length,
@@ -785,6 +782,45 @@ def _stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, c
                                                           - prof.pipe_m[a:b + 1])),
                            min_pressure_head_m=float(np.min(energy.pressure_head[a:b + 1])),
                            max_velocity_mps=v, surge_head_m=surge, wave_speed_mps=float(wave[j]),
-                           reach_length_m=float(sl[rb] - sl[ra])))
+                           reach_length_m=float(surge_len[r])))
         start = s
     return tuple(out)
+
+
+def solve_design(problem: SizingProblem, final: str, where) -> SizingResult:
+    """Solve a line's or a tree's programme by the final method the scenario asks for.
+
+    ``final`` is ``"lp"`` (split pipes), ``"pieces"`` (one pipe per sub-stretch) or
+    ``"reach"`` (one size per reach); ``where(point)`` words a point of the programme
+    ("at chainage 1,200 m") for the explanation when no design exists.
+    """
+    try:
+        if final == "pieces":
+            return solve_whole_pieces(problem)
+        lp = solve_sizing(problem)
+        if final == "lp":
+            return lp
+        return replace(solve_sizing(problem, whole="reach"), split_pipe_cost=lp.cost)
+    except SizingInfeasible as exc:
+        raise explain_infeasible(exc, where) from None
+
+
+def explain_infeasible(exc: SizingInfeasible, where) -> DesignError:
+    """The message for a programme with no solution: which limits, where, by how much."""
+    parts = []
+    for point, kind, metres in sorted(exc.violations, key=lambda v: -v[2])[:6]:
+        at = where(point)
+        if kind == MAX:
+            parts.append(f"{at} the pressure would exceed the outlet's maximum by {metres:.2f} m")
+        elif kind == ARRIVAL:
+            parts.append(f"{at} the water would arrive {metres:.2f} m too low to enter the "
+                         "break-pressure tank")
+        else:
+            parts.append(f"{at} the pressure would fall {metres:.2f} m short of its minimum")
+    if not parts:
+        return DesignError(f"{exc}: every limit can be met on its own, but not with the whole "
+                           "choices asked for: allow size changes within a reach or sub-stretch")
+    return DesignError(f"{exc}: no choice of the pipes allowed meets every limit at once; the "
+                       "least the limits would have to give:\n  - " + "\n  - ".join(parts)
+                       + "\n  allow larger sizes or higher classes, lower an outlet's minimum "
+                       "pressure or raise its maximum, move a tank, or re-route")

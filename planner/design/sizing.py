@@ -1,34 +1,47 @@
-"""Least-cost pipe sizes and classes for a gravity line: the split-pipe linear programme.
+"""Least-cost pipe sizes and classes for a gravity line or tree: the split-pipe programme.
 
-The line is cut at candidate split points into sub-stretches; each sub-stretch may be
-made of several candidate pipes.  The unknowns are the lengths ``x[k, j]`` of candidate
-``j`` in sub-stretch ``k`` (continuous) and the energy head ``h`` at every split point.
-The formulation is the classical one for least-cost gravity mains (Karmeli, Gadish &
-Meyers, "Design of optimal water distribution networks", J. Pipeline Div. ASCE 94, 1968;
-Alperovits & Shamir, Water Resour. Res. 13(6), 1977), written with a head variable per
-split point so that the matrix stays sparse::
+The system is cut at candidate split points into sub-stretches ("pieces"); each piece
+may be made of several candidate pipes.  The unknowns are the lengths ``x[k, j]`` of
+candidate ``j`` in piece ``k`` (continuous) and the energy head ``h`` at every split
+point.  The formulation is the classical one for least-cost gravity mains (Karmeli,
+Gadish & Meyers, "Design of optimal water distribution networks", J. Pipeline Div.
+ASCE 94(PL1), 1968; Alperovits & Shamir, "Design of optimal water distribution
+systems", Water Resour. Res. 13(6), 1977), written with a head variable per split point
+so that the matrix stays sparse::
 
     minimise     sum_k sum_j cost_j x[k, j]
-    subject to   sum_j x[k, j] = L_k                               (each sub-stretch is built)
-                 h[w] = h[u] - sum_j loss[k, j] x[k, j] - m[w]     (energy over sub-stretch u..w)
-                 h[split] >= h_min[split]                          (pressure at split points)
-                 (1 - t) h[u] + t h[w] >= h_min[i]                 (pressure inside, t = s_i / L_k)
+    subject to   sum_j x[k, j] = L_k                                 (each piece is built)
+                 h[start] = level - K_start hv(first piece)          (free surface)
+                 h[w] = h[u] - sum_j S[k, j] x[k, j] - K_w hv(k')    (energy over piece u..w)
+                 h[u] - hv(k) >= z[u] + p_min[u]                     (pressure at split points
+                                                                      but free surfaces)
+                 (1 - t) h[u] + t h[w] - hv(k) >= z[i] + p_min[i]    (inside a piece, t = s_i / L_k)
+                 h[end] - hv(last) >= tank level + inlet head        (arriving at a tank)
                  x >= 0
 
-``loss[k, j]`` is the friction slope of candidate ``j`` at the sub-stretch's design flow
-and ``m`` the fitting losses.  Inside a sub-stretch the pipes are laid with the larger
-bore upstream, so the hydraulic grade line is concave there and lies above its chord:
-the chord constraint is sufficient.  With a split point at every profile point there
-are no interior points and the programme is exact at every point.  It is a linear
-programme, solved to its optimum by HiGHS through scipy (Huangfu & Hall, Math. Prog.
-Comp. 10, 2018).  Candidates that break a rule independent of the sizes (pressure class
-below the static head or surge, velocity above the limit) are removed before solving,
-so the class is not a decision of its own: it is the cheapest class the static head
-allows.
+with the velocity head of a piece written linearly in its lengths,
+``hv(k) = sum_j x[k, j] hv[k, j] / L_k``.  For a piece of one pipe (every piece of the
+buildable designs) that is exactly its velocity head; for a piece split between two
+sizes it is their length-weighted mean, within the difference of the two velocity
+heads of the exact value (the recheck of the built line catches the rest).  ``S[k, j]``
+is the friction slope of candidate ``j`` at the piece's design flow and ``K_w`` a
+fitting's loss coefficient at a split point, applied with the velocity of the pipe
+leaving it (the arriving one at a link's end), as ``hydraulics.line`` does.  Inside a
+piece the pipes are laid with the larger bore upstream, so the energy line is concave
+there and lies above its chord.  It is a linear programme, solved to its optimum by
+HiGHS through scipy (Huangfu & Hall, "Parallelizing the dual revised simplex method",
+Math. Prog. Comp. 10, 2018).  Candidates that break a rule independent of the sizes
+(class below the static head or surge, velocity above the limit) are removed before
+solving, so the class is not a decision of its own.
 
-Only where a rule needs a whole choice is an integer variable used: ``whole="reach"``
-gives one diameter per reach between free surfaces, ``whole="piece"`` one candidate
-per sub-stretch (both MILPs).
+Where a rule needs a whole choice an integer variable is used (both MILPs, HiGHS
+branch and bound): ``whole="reach"`` gives one diameter per reach between free
+surfaces, ``whole="piece"`` one candidate per piece.
+
+When the programme has no solution, :class:`SizingInfeasible` carries the limits that
+cannot be met and by how many metres, from the same programme with a slack on every
+limit, the sum of the slacks minimised (the classical elastic, or "phase one",
+programme; e.g. Chinneck, "Feasibility and Infeasibility in Optimization", 2008, ch. 6).
 """
 
 from __future__ import annotations
@@ -39,25 +52,37 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 from scipy.optimize import Bounds, LinearConstraint, linprog, milp
-from scipy.sparse import coo_matrix, csr_matrix, hstack
+from scipy.sparse import coo_matrix, csr_matrix, hstack, identity
+from scipy.sparse.linalg import spsolve
 
 from ..errors import DesignError
+
+#: Relative gap at which the MILPs stop [-]: 0.1 %, far inside the uncertainty of pipe
+#: prices (a choice of ours); the gap reached is always reported.
+MIP_GAP = 1e-3
+#: Time limit of one MILP [s]: a safety stop, reported when it is hit.
+MIP_TIME_LIMIT = 60.0
+
+#: What a row of limits is about (kept with each row for explanations).
+MIN, MAX, ARRIVAL = 0, 1, 2
 
 
 @dataclass(frozen=True)
 class SizingProblem:
-    """The data of one line's sizing problem (SI units).
+    """The data of a line's or a tree's sizing problem (SI units).
 
     Attributes
     ----------
     splits : ndarray of int, shape (K + 1,)
-        Profile points where the pipe may change; includes every reach's ends.
+        Points where the pipe may change; includes every reach's ends.
     position : ndarray, shape (n,)
-        Pipe length from the line's start to every profile point [m].
+        Pipe (3-D) length from the link's start to every point [m].
     unit_loss : ndarray, shape (K, J)
-        Friction slope of each candidate in each sub-stretch [m/m].
+        Friction slope of each candidate in each piece [m/m].
+    velocity_head : ndarray, shape (K, J)
+        Velocity head of each candidate in each piece [m].
     allowed : ndarray of bool, shape (K, J)
-        Candidates admissible in each sub-stretch.
+        Candidates admissible in each piece.
     cost : ndarray, shape (J,)
         Price per metre of each candidate.
     group : ndarray of int, shape (J,)
@@ -65,37 +90,43 @@ class SizingProblem:
     reaches : list of (int, int)
         First and last point of each reach between free surfaces (both are splits).  For
         a tree, the points of all links are numbered one after another, each link's ends
-        are splits, and reaches are listed parents first.
-    start_energy : ndarray, shape (R,)
-        Energy head at each reach's first point [m] (ignored where ``parent_point`` links
-        the reach to another).
-    min_energy : ndarray, shape (n,)
-        Lowest energy head allowed at each point [m] (pipe + pressure + velocity head).
-    arrival_min_energy : ndarray, shape (R,)
-        Lowest energy head arriving at the end of each reach but the last [m] (a tank's
-        level plus its inlet head and velocity head).
-    fitting_loss : ndarray, shape (n,)
-        Head lost in fittings at each split point [m] (fittings sit at split points).
+        are splits, the piece joining two links allows nothing, and reaches are listed
+        parents first.
+    start_level : ndarray, shape (R,)
+        Operating water level of the free surface each reach starts from [m] (ignored
+        where ``parent_point`` links the reach to a junction).
+    start_k : ndarray, shape (R,)
+        Loss coefficient at each reach's first point [-]: entrance plus fitting at a
+        free surface, the fitting alone at a junction.
+    min_head : ndarray, shape (n,)
+        Lowest hydraulic grade allowed at each point [m] (pipe + required pressure).
+    arrival_min_head : ndarray, shape (R,)
+        Lowest hydraulic grade arriving at the end of each reach that ends at a tank
+        (its level plus its inlet head) [m]; -inf where the reach ends at a link's end.
+    point_k : ndarray, shape (n,)
+        Loss coefficient of the fittings at each split point [-].
     parent_point : ndarray of int, shape (R,), optional
         For a branch of a tree: the point (the last point of an earlier reach) whose
-        energy head the reach starts from, at a junction with no free surface; -1 where
-        the reach starts at a free surface (``start_energy``).
+        energy head the reach starts from; -1 where it starts at a free surface.
+    max_head : ndarray, shape (n,), optional
+        Highest hydraulic grade allowed at each point [m] (an outlet's maximum pressure).
     """
 
     splits: NDArray[np.int64]
     position: NDArray[np.float64]
     unit_loss: NDArray[np.float64]
+    velocity_head: NDArray[np.float64]
     allowed: NDArray[np.bool_]
     cost: NDArray[np.float64]
     group: NDArray[np.int64]
     reaches: list[tuple[int, int]]
-    start_energy: NDArray[np.float64]
-    min_energy: NDArray[np.float64]
-    arrival_min_energy: NDArray[np.float64]
-    fitting_loss: NDArray[np.float64]
+    start_level: NDArray[np.float64]
+    start_k: NDArray[np.float64]
+    min_head: NDArray[np.float64]
+    arrival_min_head: NDArray[np.float64]
+    point_k: NDArray[np.float64]
     parent_point: NDArray[np.int64] | None = None
-    #: Highest energy head allowed at each point [m] (an outlet's maximum pressure); None: no limit.
-    max_energy: NDArray[np.float64] | None = None
+    max_head: NDArray[np.float64] | None = None
 
     def linked(self, ri: int) -> int:
         """The junction point a reach starts from, or -1 for a free surface."""
@@ -103,141 +134,196 @@ class SizingProblem:
 
     @property
     def piece_length(self) -> NDArray[np.float64]:
-        """Pipe length of each sub-stretch [m]."""
+        """Pipe length of each piece [m]."""
         return np.diff(self.position[self.splits])
 
 
 @dataclass(frozen=True)
 class SizingResult:
-    """The optimum: lengths per sub-stretch and candidate, cost and diagnostics."""
+    """An optimum: lengths per piece and candidate, cost and how sure it is.
+
+    ``gap`` and ``lower_bound`` are the solver's proof for the method's own problem
+    (0 and the cost for the LP); ``split_pipe_cost`` is the LP optimum with free
+    splits, the bound every buildable design is compared with.
+    """
 
     lengths: NDArray[np.float64]          # (K, J) [m]
     cost: float
     method: str
     status: str
-    gap: float                            # relative optimality gap (0 for the LP)
+    gap: float                            # relative optimality gap [-]
     lower_bound: float
+    split_pipe_cost: float
     binding: tuple[int, ...] = field(default=())   # points whose pressure limit binds
     seconds: float = 0.0
     variables: int = 0
     constraints: int = 0
+    notes: tuple[str, ...] = field(default=())
 
 
-def _ends_at_tank(p: SizingProblem, ri: int) -> bool:
-    """Whether a reach ends at a free surface (it has an arrival requirement)."""
-    return bool(np.isfinite(p.arrival_min_energy[ri]))
+    @property
+    def summary(self) -> str:
+        """The method, the proof of its optimum and the split-pipe bound, in words."""
+        out = (f"{self.method}: cost {self.cost:,.0f}, within {self.gap * 100:.2g} % of the "
+               f"optimum of that method (bound {self.lower_bound:,.0f}, {self.status})")
+        if np.isfinite(self.split_pipe_cost) and self.method != "split-pipe LP":
+            above = (self.cost - self.split_pipe_cost) / self.split_pipe_cost * 100 \
+                if self.split_pipe_cost > 0 else 0.0
+            out += (f"; {above:.2g} % above the split-pipe optimum "
+                    f"{self.split_pipe_cost:,.0f}")
+        return out + "".join(f"; {n}" for n in self.notes)
 
 
-def _reach_pieces(p: SizingProblem):
-    """For each reach: indices of its sub-stretches (into splits)."""
-    out = []
-    for a, b in p.reaches:
-        k0 = int(np.searchsorted(p.splits, a))
-        k1 = int(np.searchsorted(p.splits, b))
-        out.append(np.arange(k0, k1))
-    return out
+class SizingInfeasible(DesignError):
+    """The programme has no solution; ``violations`` say where, and by how much.
+
+    ``violations`` holds (point, kind, metres): the least total by which the limits
+    must be relaxed for a design to exist (kind ``MIN``, ``MAX`` or ``ARRIVAL``).
+    """
+
+    def __init__(self, message: str, violations: list[tuple[int, int, float]]):
+        super().__init__(message)
+        self.violations = violations
 
 
-def _build(p: SizingProblem):
-    """Sparse constraint matrices, bounds and variable maps of the programme."""
+class _Rows:
+    """Rows of a sparse matrix, collected as (row, column, value) triplets."""
+
+    def __init__(self):
+        self.r, self.c, self.v, self.b, self.point, self.kind = [], [], [], [], [], []
+
+    def add(self, cols, vals, rhs, point=-1, kind=MIN):
+        row = len(self.b)
+        self.r.append(np.full(len(cols), row))
+        self.c.append(np.asarray(cols, dtype=np.int64))
+        self.v.append(np.asarray(vals, dtype=float))
+        self.b.append(rhs)
+        self.point.append(point)
+        self.kind.append(kind)
+
+    def add_block(self, cols, vals, rhs, points):
+        """Several rows with the same columns: ``vals`` has one row per row added."""
+        start = len(self.b)
+        m = len(rhs)
+        self.r.append(np.repeat(np.arange(start, start + m), len(cols)))
+        self.c.append(np.tile(np.asarray(cols, dtype=np.int64), m))
+        self.v.append(np.asarray(vals, dtype=float).ravel())
+        self.b.extend(rhs)
+        self.point.extend(points)
+        self.kind.extend([MIN] * m)
+
+    def matrix(self, nvar):
+        if not self.b:
+            return None
+        return csr_matrix((np.concatenate(self.v), (np.concatenate(self.r), np.concatenate(self.c))),
+                          shape=(len(self.b), nvar))
+
+
+def _reach_pieces(p: SizingProblem) -> list[NDArray[np.int64]]:
+    """For each reach: indices of its pieces (into splits)."""
+    return [np.arange(int(np.searchsorted(p.splits, a)), int(np.searchsorted(p.splits, b)))
+            for a, b in p.reaches]
+
+
+def _build(p: SizingProblem) -> dict:
+    """Sparse constraint matrices and variable maps of the programme (module docstring)."""
     K, J = p.allowed.shape
-    piece_idx, opt_idx = np.nonzero(p.allowed)
+    piece_idx, opt_idx = np.nonzero(p.allowed)            # row-major: sorted by piece
     nx = piece_idx.size
-    order = np.argsort(piece_idx, kind="stable")
-    first = np.searchsorted(piece_idx[order], np.arange(K))
-    last = np.searchsorted(piece_idx[order], np.arange(K), side="right")
+    first = np.searchsorted(piece_idx, np.arange(K))
+    last = np.searchsorted(piece_idx, np.arange(K), side="right")
+    length = p.piece_length
+    hvc = p.velocity_head[piece_idx, opt_idx] / length[piece_idx]
+    loss = p.unit_loss[piece_idx, opt_idx]
     pieces_of = _reach_pieces(p)
+    heads, offset = [], nx
+    for ks in pieces_of:
+        heads.append(offset + np.arange(ks.size + 1))
+        offset += ks.size + 1
+    nvar = offset
+    eq, ub = _Rows(), _Rows()
     in_reach = np.zeros(K, dtype=bool)
     for ks in pieces_of:
         in_reach[ks] = True
-    head_of = []
+    for k in np.flatnonzero(in_reach):                     # each piece is built
+        eq.add(np.arange(first[k], last[k]), np.ones(last[k] - first[k]), length[k])
+
+    def hv(k, coef=1.0):
+        cols = np.arange(first[k], last[k])
+        return list(cols), list(coef * hvc[cols])
+
     end_var = {}
-    offset = nx
-    for ri, (ks, (a, b)) in enumerate(zip(pieces_of, p.reaches)):
-        parent = p.linked(ri)
+    for ri, ks in enumerate(pieces_of):
+        h, parent = heads[ri], p.linked(ri)
+        tank_end = bool(np.isfinite(p.arrival_min_head[ri]))
+        c, v = hv(ks[0], p.start_k[ri])
         if parent >= 0:
             if parent not in end_var:
                 raise ValueError(f"reach {ri} starts from point {parent}, which ends no earlier reach")
-            heads = np.concatenate([[end_var[parent]], offset + np.arange(ks.size)])
-            offset += ks.size
+            eq.add([h[0], end_var[parent], *c], [1.0, -1.0, *v], 0.0)
         else:
-            heads = offset + np.arange(ks.size + 1)     # split points of this reach
-            offset += ks.size + 1
-        head_of.append(heads)
-        end_var[b] = int(heads[-1])
-    nvar = offset
-    lb, ub = np.full(nvar, -np.inf), np.full(nvar, np.inf)
-    lb[:nx] = 0.0
-    eq_r, eq_c, eq_v, eq_b = [], [], [], []
-    in_r, in_c, in_v, in_b, in_point = [], [], [], [], []
-    # each sub-stretch is built
-    built = np.flatnonzero(in_reach[piece_idx])
-    rows_built = np.cumsum(in_reach) - 1
-    eq_r.append(rows_built[piece_idx[built]])
-    eq_c.append(built)
-    eq_v.append(np.ones(built.size))
-    eq_b.append(p.piece_length[in_reach])
-    row = int(in_reach.sum())
-    irow = 0
-    head_point = np.full(nvar - nx, -1, dtype=np.int64)
-    for ri, ks in enumerate(pieces_of):
-        heads = head_of[ri]
-        pts = p.splits[ks[0]:ks[-1] + 2]
-        head_point[heads - nx] = pts
+            eq.add([h[0], *c], [1.0, *v], float(p.start_level[ri]))
         for kk, k in enumerate(ks):
-            u, w = p.splits[k], p.splits[k + 1]
-            sel = order[first[k]:last[k]]
-            eq_r += [np.full(sel.size + 2, row)]
-            eq_c += [np.concatenate([sel, [heads[kk + 1], heads[kk]]])]
-            eq_v += [np.concatenate([p.unit_loss[k, opt_idx[sel]], [1.0, -1.0]])]
-            m = p.fitting_loss[w] if (not _ends_at_tank(p, ri) or kk < ks.size - 1) else 0.0
-            eq_b.append(np.array([-m]))
-            row += 1
-            # pressure inside the sub-stretch, on the chord of the HGL
+            u, w = int(p.splits[k]), int(p.splits[k + 1])
+            cols = list(range(first[k], last[k]))
+            nxt = (hv(ks[kk + 1], p.point_k[w]) if kk + 1 < ks.size else
+                   ([], []) if tank_end else hv(k, p.point_k[w]))
+            eq.add([h[kk + 1], h[kk], *cols, *nxt[0]], [1.0, -1.0, *loss[cols], *nxt[1]], 0.0)
+            if kk > 0 or parent >= 0:           # a free surface's own point: its level
+                _pressure_rows(ub, p, u, h[kk], hv(k))
             inner = np.arange(u + 1, w)
             if inner.size:
                 t = (p.position[inner] - p.position[u]) / (p.position[w] - p.position[u])
-                for i, ti in zip(inner, t):
-                    in_r += [irow, irow]
-                    in_c += [heads[kk], heads[kk + 1]]
-                    in_v += [-(1.0 - ti), -ti]
-                    in_b.append(-p.min_energy[i])
-                    in_point.append(i)
-                    irow += 1
-        own = heads[1:] if p.linked(ri) >= 0 else heads
-        lb[own] = p.min_energy[pts[-own.size:]]
-        if _ends_at_tank(p, ri):
-            lb[heads[-1]] = max(p.min_energy[pts[-1]], p.arrival_min_energy[ri])
-        if p.max_energy is not None:
-            cap = p.max_energy[pts[-own.size:]]
-            ub[own] = np.minimum(ub[own], cap)
-        if p.linked(ri) < 0:
-            lb[heads[0]] = ub[heads[0]] = p.start_energy[ri]
-    A_eq = csr_matrix((np.concatenate(eq_v), (np.concatenate(eq_r), np.concatenate(eq_c))),
-                      shape=(row, nvar))
-    b_eq = np.concatenate(eq_b)
-    A_ub = csr_matrix((np.array(in_v), (np.array(in_r, dtype=np.int64), np.array(in_c, dtype=np.int64))),
-                      shape=(irow, nvar)) if irow else None
-    b_ub = np.array(in_b) if irow else None
+                c, v = hv(k)
+                vals = np.column_stack([-(1.0 - t), -t, np.tile(v, (inner.size, 1))])
+                ub.add_block([h[kk], h[kk + 1], *c], vals, list(-p.min_head[inner]), list(inner))
+        b = int(p.splits[ks[-1] + 1])
+        if tank_end:
+            c, v = hv(ks[-1])
+            ub.add([h[-1], *c], [-1.0, *v], -float(p.arrival_min_head[ri]), b, ARRIVAL)
+        else:
+            _pressure_rows(ub, p, b, h[-1], hv(ks[-1]))
+        end_var[b] = int(h[-1])
     c = np.zeros(nvar)
     c[:nx] = p.cost[opt_idx]
-    return dict(A_eq=A_eq, b_eq=b_eq, A_ub=A_ub, b_ub=b_ub, c=c, lb=lb, ub=ub,
-                piece_idx=piece_idx, opt_idx=opt_idx, nx=nx, head_point=head_point,
-                in_point=np.array(in_point, dtype=np.int64))
+    return dict(A_eq=eq.matrix(nvar), b_eq=np.array(eq.b), A_ub=ub.matrix(nvar),
+                b_ub=np.array(ub.b), row_point=np.array(ub.point, dtype=np.int64),
+                row_kind=np.array(ub.kind, dtype=np.int64), c=c, piece_idx=piece_idx,
+                opt_idx=opt_idx, nx=nx, nvar=nvar)
+
+
+def _pressure_rows(ub: _Rows, p: SizingProblem, point: int, head: int, hv_terms) -> None:
+    """h - hv >= min_head (and <= max_head where there is one) at a split point."""
+    c, v = hv_terms
+    ub.add([head, *c], [-1.0, *v], -float(p.min_head[point]), point, MIN)
+    if p.max_head is not None and np.isfinite(p.max_head[point]):
+        ub.add([head, *c], [1.0, *(-np.asarray(v))], float(p.max_head[point]), point, MAX)
+
+
+def _bounds(m: dict) -> NDArray:
+    lb = np.full(m["nvar"], -np.inf)
+    lb[:m["nx"]] = 0.0
+    return np.column_stack([lb, np.full(m["nvar"], np.inf)])
+
+
+def _lengths(p: SizingProblem, m: dict, xv: NDArray) -> NDArray:
+    x = np.zeros(p.allowed.shape)
+    x[m["piece_idx"], m["opt_idx"]] = xv[:m["nx"]]
+    return x
 
 
 def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray | None = None,
-                 time_limit: float = 60.0, mip_rel_gap: float = 1e-4) -> SizingResult:
-    """Solve the sizing problem; raise DesignError if it has no solution.
+                 time_limit: float = MIP_TIME_LIMIT, mip_rel_gap: float = MIP_GAP) -> SizingResult:
+    """Solve the sizing problem; raise :class:`SizingInfeasible` if it has no solution.
 
     Parameters
     ----------
     p : SizingProblem
     whole : {None, "reach", "piece"}
         None: free splits (the LP).  ``"reach"``: one diameter per reach between free
-        surfaces; ``"piece"``: one candidate per sub-stretch (both MILPs).
+        surfaces; ``"piece"``: one candidate per piece (both MILPs).
     pieces : ndarray of bool, optional
-        With ``whole="piece"``: only these sub-stretches must be of one candidate.
+        With ``whole="piece"``: only these pieces must be of one candidate.
     time_limit : float
         HiGHS time limit [s] (MILP only).
     mip_rel_gap : float
@@ -245,239 +331,164 @@ def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray 
     """
     if whole not in (None, "reach", "piece"):
         raise ValueError(f"whole must be None, 'reach' or 'piece', got {whole!r}")
-    if whole == "reach":
-        return _one_size_per_reach(p, time_limit=time_limit, mip_rel_gap=mip_rel_gap)
     t0 = time.perf_counter()
     m = _build(p)
-    K, J = p.allowed.shape
-    nx, c = m["nx"], m["c"]
     ncons = m["A_eq"].shape[0] + (m["A_ub"].shape[0] if m["A_ub"] is not None else 0)
     if whole is None:
-        res = linprog(c, A_ub=m["A_ub"], b_ub=m["b_ub"], A_eq=m["A_eq"], b_eq=m["b_eq"],
-                      bounds=np.column_stack([m["lb"], m["ub"]]), method="highs")
+        res = linprog(m["c"], A_ub=m["A_ub"], b_ub=m["b_ub"] if m["A_ub"] is not None else None,
+                      A_eq=m["A_eq"], b_eq=m["b_eq"], bounds=_bounds(m), method="highs")
         if res.status != 0:
-            raise DesignError(f"the sizing programme has no solution ({res.message})")
-        binding = set()
-        marg = getattr(res.lower, "marginals", None)
-        if marg is not None:
-            hp = m["head_point"]
-            free = m["ub"][nx:] > m["lb"][nx:]
-            binding |= {int(pt) for pt, mg, f in zip(hp, marg[nx:], free) if f and abs(mg) > 1e-9}
+            raise _infeasible(p, m, "the sizing programme")
+        binding = ()
         if m["A_ub"] is not None and getattr(res, "ineqlin", None) is not None:
-            binding |= {int(i) for i, mg in zip(m["in_point"], res.ineqlin.marginals)
-                        if abs(mg) > 1e-9}
-        x = np.zeros((K, J))
-        x[m["piece_idx"], m["opt_idx"]] = res.x[:nx]
-        return SizingResult(lengths=x, cost=float(res.fun), method="split-pipe LP",
-                            status="optimal", gap=0.0, lower_bound=float(res.fun),
-                            binding=tuple(sorted(binding)), seconds=time.perf_counter() - t0,
-                            variables=c.size, constraints=ncons)
+            hit = (np.abs(res.ineqlin.marginals) > 1e-9) & (m["row_kind"] != MAX)
+            binding = tuple(sorted(set(m["row_point"][hit].tolist())))
+        cost = float(res.fun)
+        return SizingResult(lengths=_lengths(p, m, res.x), cost=cost, method="split-pipe LP",
+                            status="optimal", gap=0.0, lower_bound=cost, split_pipe_cost=cost,
+                            binding=binding, seconds=time.perf_counter() - t0,
+                            variables=m["nvar"], constraints=ncons)
+    return _whole_choices(p, m, whole, pieces, time_limit, mip_rel_gap, t0, ncons)
 
-    # whole choices: binaries y[u, g]; x[k, j] <= L_k y[u(k), g(j)]; sum_g y[u, g] = 1
-    groups = np.unique(p.group)
+
+def _units(p: SizingProblem, whole: str, pieces) -> tuple[NDArray, int]:
+    """The unit (reach, or chosen piece) each piece belongs to, -1 for none; and their number."""
+    K = p.allowed.shape[0]
+    unit = np.full(K, -1, dtype=np.int64)
     if whole == "reach":
-        unit_of_piece = np.full(K, -1, dtype=np.int64)
         for ri, ks in enumerate(_reach_pieces(p)):
-            unit_of_piece[ks] = ri
-        n_units = len(p.reaches)
-    else:
-        in_reach = np.zeros(K, dtype=bool)
-        for ks in _reach_pieces(p):
-            in_reach[ks] = True
-        chosen = in_reach if pieces is None else np.asarray(pieces, dtype=bool) & in_reach
-        unit_of_piece = np.full(K, -1, dtype=np.int64)
-        unit_of_piece[chosen] = np.arange(int(chosen.sum()))
-        n_units = int(chosen.sum())
-    gpos = {g: k for k, g in enumerate(groups)}
+            unit[ks] = ri
+        return unit, len(p.reaches)
+    chosen = np.zeros(K, dtype=bool)
+    for ks in _reach_pieces(p):
+        chosen[ks] = True
+    if pieces is not None:
+        chosen &= np.asarray(pieces, dtype=bool)
+    unit[chosen] = np.arange(int(chosen.sum()))
+    return unit, int(chosen.sum())
+
+
+def _whole_choices(p, m, whole, pieces, time_limit, mip_rel_gap, t0, ncons) -> SizingResult:
+    """The MILP: binaries y[u, g]; x[k, j] <= L_k y[u(k), g(j)]; sum_g y[u, g] = 1."""
+    groups = np.unique(p.group)
+    gpos = np.searchsorted(groups, p.group)
+    unit, n_units = _units(p, whole, pieces)
     ny = n_units * groups.size
+    nv = m["nvar"]
     piece_idx, opt_idx = m["piece_idx"], m["opt_idx"]
-    tied = np.flatnonzero(unit_of_piece[piece_idx] >= 0)         # x entries with a binary
-    yidx = unit_of_piece[piece_idx[tied]] * groups.size + np.array(
-        [gpos[g] for g in p.group[opt_idx[tied]]], dtype=np.int64)
-    nvar = c.size + ny
+    tied = np.flatnonzero(unit[piece_idx] >= 0)
+    yidx = unit[piece_idx[tied]] * groups.size + gpos[opt_idx[tied]]
     nt = tied.size
     link = coo_matrix((np.concatenate([np.ones(nt), -p.piece_length[piece_idx[tied]]]),
-                       (np.concatenate([np.arange(nt), np.arange(nt)]),
-                        np.concatenate([tied, c.size + yidx]))), shape=(nt, nvar))
-    one = coo_matrix((np.ones(ny), (np.repeat(np.arange(n_units), groups.size),
-                                    c.size + np.arange(ny))), shape=(n_units, nvar))
-    pad = csr_matrix((m["A_eq"].shape[0], ny))
-    cons = [LinearConstraint(hstack([m["A_eq"], pad]).tocsr(), m["b_eq"], m["b_eq"]),
+                       (np.tile(np.arange(nt), 2), np.concatenate([tied, nv + yidx]))),
+                      shape=(nt, nv + ny))
+    one = coo_matrix((np.ones(ny), (np.repeat(np.arange(n_units), groups.size), nv + np.arange(ny))),
+                     shape=(n_units, nv + ny))
+    cons = [LinearConstraint(hstack([m["A_eq"], csr_matrix((m["A_eq"].shape[0], ny))]).tocsr(),
+                             m["b_eq"], m["b_eq"]),
             LinearConstraint(link.tocsr(), -np.inf, 0.0), LinearConstraint(one.tocsr(), 1.0, 1.0)]
     if m["A_ub"] is not None:
         cons.append(LinearConstraint(hstack([m["A_ub"], csr_matrix((m["A_ub"].shape[0], ny))]).tocsr(),
                                      -np.inf, m["b_ub"]))
-    yub = np.ones(ny)
-    for u in range(n_units):
-        ks = np.flatnonzero(unit_of_piece == u)
-        for g in groups:
-            if not np.all(p.allowed[ks][:, p.group == g].any(axis=1)):
-                yub[u * groups.size + gpos[g]] = 0.0
-    res = milp(np.concatenate([c, np.zeros(ny)]), constraints=cons,
-               bounds=Bounds(np.concatenate([m["lb"], np.zeros(ny)]), np.concatenate([m["ub"], yub])),
-               integrality=np.concatenate([np.zeros(c.size), np.ones(ny)]),
+    # a size is open to a unit only where every piece of the unit admits it
+    yub = np.ones((max(n_units, 1), groups.size))[:n_units]
+    for gi in range(groups.size):
+        ok = p.allowed[:, gpos == gi].any(axis=1)
+        bad = np.unique(unit[(unit >= 0) & ~ok])
+        yub[bad, gi] = 0.0
+    bounds = _bounds(m)
+    res = milp(np.concatenate([m["c"], np.zeros(ny)]), constraints=cons,
+               bounds=Bounds(np.concatenate([bounds[:, 0], np.zeros(ny)]),
+                             np.concatenate([bounds[:, 1], yub.ravel()])),
+               integrality=np.concatenate([np.zeros(nv), np.ones(ny)]),
                options=dict(time_limit=time_limit, mip_rel_gap=mip_rel_gap))
+    what = "one pipe size per reach" if whole == "reach" else "one pipe per sub-stretch"
     if res.x is None:
-        raise DesignError(f"no design with one pipe size per {whole} meets the limits "
-                          f"({res.message}); allow size changes")
-    x = np.zeros((K, J))
-    x[piece_idx, opt_idx] = res.x[:nx]
-    gap = float(getattr(res, "mip_gap", 0.0) or 0.0)
+        if res.status == 1:
+            raise DesignError(f"no design with {what} was found within the time limit of "
+                              f"{time_limit:g} s: allow size changes (design.one_size_per_reach "
+                              "= false) or a coarser design.split_spacing_m")
+        raise _infeasible(p, m, f"a design with {what}")
     bound = getattr(res, "mip_dual_bound", None)
-    return SizingResult(lengths=x, cost=float(res.fun), method=f"MILP, one size per {whole}",
-                        status="optimal" if res.status == 0 else "time limit (best found)",
-                        gap=gap, lower_bound=float(bound if bound is not None else res.fun),
-                        seconds=time.perf_counter() - t0, variables=nvar,
-                        constraints=ncons + nt + n_units)
-
-
-def _one_size_per_reach(p: SizingProblem, *, time_limit: float, mip_rel_gap: float) -> SizingResult:
-    """One diameter per reach, as a compact MILP: a binary per reach and size only.
-
-    With the size fixed, each piece takes that size's cheapest admissible class, so the
-    head loss to every point of the reach is a known number per size; the heads are
-    linear in the binaries.  Variables: the binaries and one energy head per reach end.
-    """
-    t0 = time.perf_counter()
-    K, J = p.allowed.shape
-    groups = np.unique(p.group)
-    pieces_of = _reach_pieces(p)
-    R, G_ = len(p.reaches), groups.size
-    # the option each (piece, size) would use, or -1
-    pick = np.full((K, G_), -1, dtype=np.int64)
-    for gi, g in enumerate(groups):
-        cols = np.flatnonzero(p.group == g)
-        costs = np.where(p.allowed[:, cols], p.cost[cols][None, :], np.inf)
-        best = np.argmin(costs, axis=1)
-        ok = np.isfinite(costs[np.arange(K), best])
-        pick[ok, gi] = cols[best[ok]]
-    ny = R * G_
-    nh = R                                       # energy head at each reach's end
-    nvar = ny + nh
-    c = np.zeros(nvar)
-    yub = np.ones(ny)
-    rows, cols_, vals, lo, hi = [], [], [], [], []
-    row = 0
-    end_of = {}
-    for ri, ks in enumerate(pieces_of):
-        a, b = p.reaches[ri]
-        parent = p.linked(ri)
-        pts_split = p.splits[ks[0]:ks[-1] + 2]
-        # cumulative loss per size at every point of the reach (pieces and their inner points)
-        pts = np.arange(a, b + 1)
-        cum = np.zeros((pts.size, G_))
-        for gi in range(G_):
-            if np.any(pick[ks, gi] < 0):
-                yub[ri * G_ + gi] = 0.0
-                continue
-            c[ri * G_ + gi] = float(np.sum(p.cost[pick[ks, gi]] * p.piece_length[ks]))
-            loss_k = p.unit_loss[ks, pick[ks, gi]] * p.piece_length[ks]
-            m = p.fitting_loss[p.splits[ks + 1]].copy()
-            if _ends_at_tank(p, ri):
-                m[-1] = 0.0
-            at_split = np.concatenate([[0.0], np.cumsum(loss_k + m)])
-            cum[:, gi] = np.interp(p.position[pts] - p.position[a] + 0.0,
-                                   p.position[pts_split] - p.position[a], at_split)
-        # h_point = h_start - sum_g y_g cum_g(point) >= need(point)
-        need = p.min_energy[pts].copy()
-        if _ends_at_tank(p, ri):
-            need[-1] = max(need[-1], p.arrival_min_energy[ri])
-        ycols = ri * G_ + np.arange(G_)
-        start_var = end_of[parent] if parent >= 0 else None
-        start_val = p.start_energy[ri] if parent < 0 else 0.0
-        for i in range(1, pts.size):
-            r_c = list(ycols)
-            r_v = list(-cum[i])
-            if start_var is not None:
-                r_c.append(start_var)
-                r_v.append(1.0)
-            rows += [row] * len(r_c)
-            cols_ += r_c
-            vals += r_v
-            lo.append(need[i] - start_val)
-            cap = np.inf if p.max_energy is None else p.max_energy[pts[i]]
-            hi.append(cap - start_val)
-            row += 1
-        # the reach's end head: h_end + sum_g y_g cum_g(end) - h_start = 0
-        end_var = ny + ri
-        r_c = list(ycols) + [end_var] + ([start_var] if start_var is not None else [])
-        r_v = list(cum[-1]) + [1.0] + ([-1.0] if start_var is not None else [])
-        rows += [row] * len(r_c)
-        cols_ += r_c
-        vals += r_v
-        lo.append(start_val)
-        hi.append(start_val)
-        row += 1
-        end_of[b] = end_var
-        # one size
-        rows += [row] * G_
-        cols_ += list(ycols)
-        vals += [1.0] * G_
-        lo.append(1.0)
-        hi.append(1.0)
-        row += 1
-    A = csr_matrix((vals, (rows, cols_)), shape=(row, nvar))
-    res = milp(c, constraints=[LinearConstraint(A, np.array(lo), np.array(hi))],
-               bounds=Bounds(np.concatenate([np.zeros(ny), np.full(nh, -np.inf)]),
-                             np.concatenate([yub, np.full(nh, np.inf)])),
-               integrality=np.concatenate([np.ones(ny), np.zeros(nh)]),
-               options=dict(time_limit=time_limit, mip_rel_gap=mip_rel_gap))
-    if res.x is None:
-        raise DesignError("no design with one pipe size per reach meets the limits "
-                          f"({res.message}); allow size changes")
-    y = np.round(res.x[:ny]).reshape(R, G_)
-    x = np.zeros((K, J))
-    for ri, ks in enumerate(pieces_of):
-        gi = int(np.argmax(y[ri]))
-        x[ks, pick[ks, gi]] = p.piece_length[ks]
-    bound = getattr(res, "mip_dual_bound", None)
-    return SizingResult(lengths=x, cost=float(res.fun), method="MILP, one size per reach",
+    cost = float(res.fun)
+    return SizingResult(lengths=_lengths(p, m, res.x), cost=cost,
+                        method=f"MILP, {what}",
                         status="optimal" if res.status == 0 else "time limit (best found)",
                         gap=float(getattr(res, "mip_gap", 0.0) or 0.0),
-                        lower_bound=float(bound if bound is not None else res.fun),
-                        seconds=time.perf_counter() - t0, variables=nvar, constraints=row)
+                        lower_bound=float(bound if bound is not None else cost),
+                        split_pipe_cost=float("nan"), seconds=time.perf_counter() - t0,
+                        variables=nv + ny, constraints=ncons + nt + n_units)
 
 
-def solve_whole_pieces(p: SizingProblem, *, rounds: int = 6, time_limit: float = 10.0) -> SizingResult:
-    """The split-pipe optimum, then one candidate per sub-stretch where the LP split one.
+def _infeasible(p: SizingProblem, m: dict, what: str) -> SizingInfeasible:
+    """Why no design exists: the least relaxation of the limits, from the elastic LP."""
+    A = m["A_ub"]
+    if A is None:
+        return SizingInfeasible(f"{what} has no solution", [])
+    nrow = A.shape[0]
+    A_el = hstack([A, -identity(nrow, format="csr")]).tocsr()
+    A_eq = hstack([m["A_eq"], csr_matrix((m["A_eq"].shape[0], nrow))]).tocsr()
+    c = np.concatenate([np.zeros(m["nvar"]), np.ones(nrow)])
+    bounds = np.vstack([_bounds(m), np.column_stack([np.zeros(nrow), np.full(nrow, np.inf)])])
+    res = linprog(c, A_ub=A_el, b_ub=m["b_ub"], A_eq=A_eq, b_eq=m["b_eq"], bounds=bounds,
+                  method="highs")
+    found = []
+    if res.status == 0:
+        slack = res.x[m["nvar"]:]
+        for i in np.flatnonzero(slack > 1e-4):
+            found.append((int(m["row_point"][i]), int(m["row_kind"][i]), float(slack[i])))
+    return SizingInfeasible(f"{what} has no solution", found)
 
-    The LP optimum is a lower bound; sub-stretches it made of several pipes get a
-    binary choice (a MILP over those few only), repeated until no sub-stretch is split.
-    The result's gap is measured against the LP bound.  Every stretch is then at least
-    one sub-stretch long (the minimum stretch length rule).
+
+def solve_whole_pieces(p: SizingProblem, *, rounds: int = 2,
+                       time_limit: float = MIP_TIME_LIMIT) -> SizingResult:
+    """The split-pipe optimum, then one candidate per piece where the LP split one.
+
+    Pieces the LP made of several pipes get a binary choice (a MILP over those only),
+    repeated while the answer splits others.  Forcing only some pieces whole is a
+    relaxation of forcing all, so once no piece is split the answer is the optimum of
+    "one pipe per piece" within the MILP's stated gap.  After ``rounds`` rounds every
+    piece is made whole at once (one larger MILP), and the notes say so.
     """
     lp = solve_sizing(p)
     res, mask = lp, np.zeros(p.allowed.shape[0], dtype=bool)
-    for _ in range(rounds):
+    notes = []
+    bound = lp.cost
+    for r in range(rounds + 1):
         split = (res.lengths > 1e-6 * p.piece_length[:, None]).sum(axis=1) > 1
         if not split.any():
             break
-        mask |= split
+        mask = np.ones_like(mask) if r == rounds else mask | split
+        if r == rounds:
+            notes.append(f"after {rounds} rounds over the split sub-stretches, every sub-stretch "
+                         "was made one pipe in one programme")
         res = solve_sizing(p, whole="piece", pieces=mask, time_limit=time_limit)
-    gap = (res.cost - lp.cost) / lp.cost if lp.cost > 0 else 0.0
+        bound = max(bound, res.lower_bound)
+    gap = (res.cost - bound) / res.cost if res.cost > 0 else 0.0
     return SizingResult(lengths=res.lengths, cost=res.cost,
                         method="split-pipe LP, then one pipe per sub-stretch (MILP)"
-                        if mask.any() else "split-pipe LP", status=res.status, gap=gap,
-                        lower_bound=lp.cost, binding=lp.binding,
-                        seconds=lp.seconds + (res.seconds if res is not lp else 0.0),
-                        variables=res.variables, constraints=res.constraints)
+                        if mask.any() else "split-pipe LP", status=res.status,
+                        gap=max(gap, 0.0), lower_bound=bound, split_pipe_cost=lp.cost,
+                        binding=lp.binding,
+                        seconds=lp.seconds + (0.0 if res is lp else res.seconds),
+                        variables=res.variables, constraints=res.constraints, notes=tuple(notes))
 
 
-def energies(p: SizingProblem, lengths: NDArray) -> list[NDArray]:
-    """Energy heads at the split points of each reach, under the programme's own model."""
-    out, at_end = [], {}
-    for ri, ks in enumerate(_reach_pieces(p)):
-        loss = np.sum(np.where(p.allowed[ks], p.unit_loss[ks], 0.0) * lengths[ks], axis=1)
-        w = p.splits[ks + 1]
-        m = p.fitting_loss[w].copy()
-        if _ends_at_tank(p, ri):
-            m[-1] = 0.0
-        parent = p.linked(ri)
-        start = at_end[parent] if parent >= 0 else p.start_energy[ri]
-        h = start - np.concatenate([[0.0], np.cumsum(loss + m)])
-        at_end[p.reaches[ri][1]] = h[-1]
-        out.append(h)
-    return out
+def design_heads(p: SizingProblem, lengths: NDArray) -> tuple[NDArray, dict]:
+    """Energy heads of a design under the programme's own model, and the programme.
+
+    The equalities fix every head once the lengths are known; they are solved here as
+    the square system they form.
+    """
+    m = _build(p)
+    xv = lengths[m["piece_idx"], m["opt_idx"]]
+    A = m["A_eq"].tocsc()
+    nx = m["nx"]
+    rows = np.flatnonzero(np.asarray(abs(A[:, nx:]).sum(axis=1)).ravel() > 0)
+    A_h = A[rows][:, nx:]
+    rhs = m["b_eq"][rows] - A[rows][:, :nx] @ xv
+    h = spsolve(A_h.tocsc(), rhs)
+    return np.concatenate([xv, np.atleast_1d(h)]), m
 
 
 def is_feasible(p: SizingProblem, lengths: NDArray, tol: float = 1e-6) -> bool:
@@ -488,42 +499,26 @@ def is_feasible(p: SizingProblem, lengths: NDArray, tol: float = 1e-6) -> bool:
         return False
     if np.any((lengths > tol) & ~p.allowed):
         return False
-    for ri, (ks, h) in enumerate(zip(pieces_of, energies(p, lengths))):
-        pts = p.splits[ks[0]:ks[-1] + 2]
-        need = p.min_energy[pts].copy()
-        if _ends_at_tank(p, ri):
-            need[-1] = max(need[-1], p.arrival_min_energy[ri])
-        if np.any(h[1:] < need[1:] - tol):
-            return False
-        if p.max_energy is not None and np.any(h > p.max_energy[pts] + tol):
-            return False
-        for kk, k in enumerate(ks):
-            u, w = p.splits[k], p.splits[k + 1]
-            inner = np.arange(u + 1, w)
-            if inner.size:
-                t = (p.position[inner] - p.position[u]) / (p.position[w] - p.position[u])
-                if np.any((1 - t) * h[kk] + t * h[kk + 1] < p.min_energy[inner] - tol):
-                    return False
-    return True
+    v, m = design_heads(p, lengths)
+    return m["A_ub"] is None or bool(np.all(m["A_ub"] @ v <= m["b_ub"] + tol))
 
 
 def best_single_size(p: SizingProblem) -> tuple[float, int | None]:
-    """Cheapest feasible design using one diameter group along the whole line.
+    """Cheapest feasible design using one diameter group along the whole system.
 
-    In each sub-stretch the group's cheapest admissible candidate is used (the class
-    may change with the static head).  Returns (cost, group), or (inf, None).
+    In each piece the group's cheapest admissible candidate is used (the class may
+    change with the static head).  Returns (cost, group), or (inf, None).
     """
     best = (float("inf"), None)
+    used = np.concatenate(_reach_pieces(p))
     for g in np.unique(p.group):
         cols = np.flatnonzero(p.group == g)
         ok = p.allowed[:, cols]
-        used = np.concatenate(_reach_pieces(p))
         if not np.all(ok[used].any(axis=1)):
             continue
         lengths = np.zeros(p.allowed.shape)
         pick = cols[np.argmin(np.where(ok, p.cost[cols][None, :], np.inf), axis=1)]
-        for ks in _reach_pieces(p):
-            lengths[ks, pick[ks]] = p.piece_length[ks]
+        lengths[used, pick[used]] = p.piece_length[used]
         if is_feasible(p, lengths):
             cost = float(np.sum(lengths * p.cost[None, :]))
             if cost < best[0]:

@@ -104,3 +104,46 @@ def tree_energy(links: list[LinkData], source: FreeSurface, *, kinematic_viscosi
                                surfaces=[start] + list(link.tanks), entrance_k=entrance_k,
                                point_k=link.point_k))
     return out
+
+
+def surge_path_lengths(slope_length: list[NDArray], parents: list[int],
+                       surfaces: list[list[int]]) -> list[NDArray[np.float64]]:
+    """Pipe length that a pressure wave travels from the free surface feeding each reach.
+
+    A valve closing anywhere downstream of a free surface (the source or a tank) sends a
+    wave that reflects at that surface; the Michaud rise grows with the pipe length
+    between them.  For each reach this is the longest path from its feeding surface to
+    a point where that water ends (the next tank, or a branch end), so every reach fed
+    by one surface gets the same, conservative length.  On a single line it is the
+    reach's own length.
+
+    Parameters
+    ----------
+    slope_length : list of ndarray
+        Cumulative pipe length at the points of each link [m]; parents before children.
+    parents : list of int
+        Upstream link of each link, -1 for the link leaving the source.
+    surfaces : list of list of int
+        Point indices of the free surfaces on each link, starting with 0 (the source,
+        or the junction on a branch, which is no surface).
+
+    Returns
+    -------
+    list of ndarray
+        For each link, the length for each of its reaches [m].
+    """
+    region, dist, length = {}, {}, {}
+    longest: dict[tuple[int, int], float] = {}
+    for k, (sl, idx) in enumerate(zip(slope_length, surfaces)):
+        ends = list(idx[1:]) + [sl.size - 1]
+        for r, (a, b) in enumerate(zip(idx, ends)):
+            length[k, r] = float(sl[b] - sl[a])
+            if r == 0 and parents[k] >= 0:
+                up = (parents[k], len(surfaces[parents[k]]) - 1)
+                region[k, r], dist[k, r] = region[up], dist[up] + length[up]
+            else:
+                region[k, r], dist[k, r] = (k, r), 0.0
+            key = region[k, r]
+            longest[key] = max(longest.get(key, 0.0), dist[k, r] + length[k, r])
+    return [np.array([longest[region[k, r]] for r in range(len(idx))])
+            for k, idx in enumerate(surfaces)]

@@ -156,8 +156,7 @@ def report_html(data: dict, drawings: list[Path], bill_rows: list[list]) -> str:
     parts += _uncertainty_html(data)
     if data.get("sizing"):
         z = data["sizing"]
-        parts.append(f"<p>Sizing: {esc(z['method'])}, cost {z['objective']}, "
-                     f"{z['optimality_gap'] * 100:.3g} % above the bound {z['lower_bound']}.</p>")
+        parts.append(f"<p>Sizing: {esc(z['summary'])}.</p>")
     parts.append("<h2>Findings</h2>" + "".join(
         f"<p class='{esc(f['severity'])}'>{esc(f['severity'])}: {esc(f['message'])}"
         + (f"<br><i>{esc(f['remedy'])}</i>" if f["remedy"] else "") + "</p>"

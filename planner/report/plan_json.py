@@ -167,6 +167,8 @@ def plan_to_dict(plan: Plan) -> dict:
             "method": plan.sizing.method, "status": plan.sizing.status,
             "objective": _f(plan.sizing.cost, 2), "optimality_gap": plan.sizing.gap,
             "lower_bound": _f(plan.sizing.lower_bound, 2),
+            "split_pipe_optimum": _f(plan.sizing.split_pipe_cost, 2),
+            "summary": plan.sizing.summary,
             "variables": plan.sizing.variables, "constraints": plan.sizing.constraints,
             "binding_chainages_m": [_f(c, 2) for c in plan.binding_chainages_m],
             "cheapest_single_size_cost": _f(plan.single_size_cost, 2)
@@ -252,6 +254,7 @@ def network_to_dict(plan, link_plans, drawings) -> dict:
     sizing = None if s is None else {
         "method": s.method, "status": s.status, "objective": _f(s.cost, 2),
         "optimality_gap": s.gap, "lower_bound": _f(s.lower_bound, 2),
+        "split_pipe_optimum": _f(s.split_pipe_cost, 2), "summary": s.summary,
         "variables": s.variables, "constraints": s.constraints,
         "cheapest_single_size_cost": _f(plan.single_size_cost, 2)
         if plan.single_size_cost is not None else None}

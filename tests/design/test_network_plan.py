@@ -139,3 +139,30 @@ def test_check_mode_with_given_pipe_tanks_and_fittings(demo_folder, tmp_path):
     res = CliRunner().invoke(main, ["plan", str(tmp_path / "b.toml"), "--out", str(tmp_path / "o")])
     assert res.exit_code in (0, 2), res.output
     assert json.loads((tmp_path / "o" / "plan.json").read_text())["mode"] == "check"
+
+
+def test_a_line_given_as_a_one_link_network_gets_the_same_design(demo_folder):
+    """Issue 11: one design for a line, whether planned as a line or as a tree of one
+    link (the same tanks, stretches, cost and pressures at every point)."""
+    from dataclasses import replace
+
+    from planner import api
+    from planner.geo.network import read_lines
+
+    sc = api.load_scenario(demo_folder / "scenario.toml")
+    sc = replace(sc, uncertainty=replace(sc.uncertainty, enabled=False))
+    line = api.plan(sc)
+    geom, name = read_lines(sc.route.file)[0]
+    first = tuple(geom.coords[0][:2])
+    tree_sc = replace(sc, route=replace(sc.route, network=True),
+                      source=replace(sc.source, location=first),
+                      fittings=tuple(replace(f, link=name or "link 1") for f in sc.fittings))
+    tree = plan_network(tree_sc)
+    path = as_line_plan(tree, [0])
+    assert tree.pipe_cost == pytest.approx(line.pipe_cost, rel=1e-6)
+    assert [t.chainage_m for t in path.tanks] == pytest.approx([t.chainage_m for t in line.tanks])
+    assert [s.option.label for s in path.stretches] == [s.option.label for s in line.stretches]
+    np.testing.assert_allclose(path.profile.chainage_m, line.profile.chainage_m, atol=1e-6)
+    np.testing.assert_allclose(path.energy.pressure_head, line.energy.pressure_head, atol=1e-6)
+    np.testing.assert_allclose([s.surge_head_m for s in path.stretches],
+                               [s.surge_head_m for s in line.stretches], rtol=1e-9)

@@ -28,9 +28,9 @@ def small_problem(seed, nseg=4, nopt=3, reaches=None, feasible=False):
     return SizingProblem(
         splits=np.arange(nseg + 1), position=position, unit_loss=unit_loss,
         allowed=np.ones((nseg, nopt), dtype=bool), cost=cost, group=np.arange(nopt),
-        reaches=reaches, start_energy=np.array([start for _ in reaches]),
-        min_energy=need, arrival_min_energy=np.full(len(reaches), -np.inf),
-        fitting_loss=np.zeros(nseg + 1))
+        reaches=reaches, start_level=np.array([start for _ in reaches]),
+        min_head=need, arrival_min_head=np.full(len(reaches), -np.inf),
+        point_k=np.zeros(nseg + 1), velocity_head=np.zeros_like(unit_loss), start_k=np.zeros(len(reaches)))
 
 
 def enumerate_best(p):
@@ -38,9 +38,9 @@ def enumerate_best(p):
     nseg, nopt = p.allowed.shape
     best = np.inf
     for combo in itertools.product(range(nopt), repeat=nseg):
-        h = p.start_energy[0] - np.concatenate(
+        h = p.start_level[0] - np.concatenate(
             [[0.0], np.cumsum([p.unit_loss[s, j] * p.piece_length[s] for s, j in enumerate(combo)])])
-        if np.all(h[1:] >= p.min_energy[1:] - 1e-9):
+        if np.all(h[1:] >= p.min_head[1:] - 1e-9):
             best = min(best, sum(p.cost[j] * p.piece_length[s] for s, j in enumerate(combo)))
     return best
 
@@ -76,8 +76,8 @@ def test_lp_design_meets_every_limit_when_rechecked():
     p = small_problem(3, nseg=8, nopt=4, feasible=True)
     res = solve_sizing(p)
     np.testing.assert_allclose(res.lengths.sum(axis=1), p.piece_length)
-    h = p.start_energy[0] - np.concatenate([[0.0], np.cumsum((res.lengths * p.unit_loss).sum(axis=1))])
-    assert np.all(h[1:] >= p.min_energy[1:] - 1e-7)
+    h = p.start_level[0] - np.concatenate([[0.0], np.cumsum((res.lengths * p.unit_loss).sum(axis=1))])
+    assert np.all(h[1:] >= p.min_head[1:] - 1e-7)
     # the LP uses at most two candidates in a segment, adjacent in size (a vertex property)
     assert ((res.lengths > 1e-6).sum(axis=1) <= 2).all()
 
@@ -86,8 +86,8 @@ def test_chord_constraint_inside_coarse_pieces():
     p = small_problem(5, nseg=6, nopt=3, feasible=True)
     loss = np.tile(p.unit_loss[0], (6, 1))                  # one flow along the line
     big = np.concatenate([[0.0], np.cumsum(loss[:, -1] * p.piece_length)])
-    start = np.array([float(np.max(p.min_energy + big)) + 0.5])
-    fine = SizingProblem(**{**p.__dict__, "unit_loss": loss, "start_energy": start})
+    start = np.array([float(np.max(p.min_head + big)) + 0.5])
+    fine = SizingProblem(**{**p.__dict__, "unit_loss": loss, "start_level": start})
     coarse = SizingProblem(**{**fine.__dict__, "splits": np.array([0, 3, 6]),
                               "unit_loss": loss[[0, 3]], "allowed": p.allowed[[0, 3]]})
     f, c = solve_sizing(fine), solve_sizing(coarse)
@@ -106,12 +106,12 @@ def test_chord_constraint_inside_coarse_pieces():
                 take = min(c.lengths[k, j], max(d - run, 0.0))
                 h -= loss[0, j] * take
                 run += c.lengths[k, j]
-            assert h >= p.min_energy[i] - 1e-7
+            assert h >= p.min_head[i] - 1e-7
 
 
 def test_infeasible_is_reported():
     p = small_problem(1)
-    impossible = SizingProblem(**{**p.__dict__, "min_energy": p.min_energy + 50})
+    impossible = SizingProblem(**{**p.__dict__, "min_head": p.min_head + 50})
     with pytest.raises(DesignError, match="no solution"):
         solve_sizing(impossible)
 
@@ -147,9 +147,9 @@ def small_tree(seed, nopt=3):
     return SizingProblem(
         splits=np.arange(9), position=position, unit_loss=unit_loss, allowed=allowed,
         cost=np.sort(rng.uniform(1, 10, nopt)) * 1.0, group=np.arange(nopt),
-        reaches=[(0, 2), (3, 5), (6, 8)], start_energy=np.array([start, np.nan, np.nan]),
-        min_energy=ground + 2.0, arrival_min_energy=np.full(3, -np.inf),
-        fitting_loss=np.zeros(9), parent_point=np.array([-1, 2, 2]))
+        reaches=[(0, 2), (3, 5), (6, 8)], start_level=np.array([start, np.nan, np.nan]),
+        min_head=ground + 2.0, arrival_min_head=np.full(3, -np.inf),
+        point_k=np.zeros(9), velocity_head=np.zeros_like(unit_loss), start_k=np.zeros(3), parent_point=np.array([-1, 2, 2]))
 
 
 def enumerate_tree(p):
@@ -159,14 +159,14 @@ def enumerate_tree(p):
     for combo in itertools.product(range(p.cost.size), repeat=len(real)):
         pick = dict(zip(real, combo))
         h = np.full(9, np.nan)
-        h[0] = p.start_energy[0]
+        h[0] = p.start_level[0]
         h[1] = h[0] - p.unit_loss[0, pick[0]] * length[0]
         h[2] = h[1] - p.unit_loss[1, pick[1]] * length[1]
         for a in (3, 6):                                   # each branch starts at the junction
             h[a] = h[2]
             h[a + 1] = h[a] - p.unit_loss[a, pick[a]] * length[a]
             h[a + 2] = h[a + 1] - p.unit_loss[a + 1, pick[a + 1]] * length[a + 1]
-        if np.all(h[[1, 2, 4, 5, 7, 8]] >= p.min_energy[[1, 2, 4, 5, 7, 8]] - 1e-9):
+        if np.all(h[[1, 2, 4, 5, 7, 8]] >= p.min_head[[1, 2, 4, 5, 7, 8]] - 1e-9):
             best = min(best, sum(p.cost[j] * length[k] for k, j in pick.items()))
     return best
 
@@ -178,7 +178,7 @@ def test_tree_sizing_equals_enumeration(seed):
     assert lp is not None                               # every Y here has a design
     # the junction head is shared: both branches start where the main ends
     x = lp.lengths
-    h_junction = p.start_energy[0] - sum((x[k] * p.unit_loss[k]).sum() for k in (0, 1))
+    h_junction = p.start_level[0] - sum((x[k] * p.unit_loss[k]).sum() for k in (0, 1))
     for a in (3, 6):
         h_end = h_junction - sum((x[k] * p.unit_loss[k]).sum() for k in (a, a + 1))
-        assert h_end >= p.min_energy[a + 2] - 1e-7
+        assert h_end >= p.min_head[a + 2] - 1e-7
