@@ -348,7 +348,72 @@ def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray 
                             status="optimal", gap=0.0, lower_bound=cost, split_pipe_cost=cost,
                             binding=binding, seconds=time.perf_counter() - t0,
                             variables=m["nvar"], constraints=ncons)
+    if whole == "reach":
+        return _one_size_per_reach(p, m, time_limit, mip_rel_gap, t0)
     return _whole_choices(p, m, whole, pieces, time_limit, mip_rel_gap, t0, ncons)
+
+
+def _one_size_per_reach(p, m, time_limit, mip_rel_gap, t0) -> SizingResult:
+    """One size per reach: the same programme with the lengths written as ``x = T y``.
+
+    With a reach's size fixed every piece takes that size's one admissible candidate
+    for its whole length, so ``x[k, j] = L_k y[r, g(j)]``; substituting leaves binaries
+    and heads only (the compact form, far quicker on large trees than linking the
+    lengths to binaries), and the rules stay those of :func:`_build`.
+    """
+    groups = np.unique(p.group)
+    gpos = np.searchsorted(groups, p.group)
+    unit, n_units = _units(p, "reach", None)
+    piece_idx, opt_idx, nx, nv = m["piece_idx"], m["opt_idx"], m["nx"], m["nvar"]
+    ny = n_units * groups.size
+    # of several candidates of one size in a piece (classes), the cheapest is taken: a
+    # higher class of the same size costs more and has a smaller bore
+    order = np.lexsort((p.cost[opt_idx], gpos[opt_idx], piece_idx))
+    key = np.stack([piece_idx[order], gpos[opt_idx[order]]])
+    first = np.ones(nx, dtype=bool)
+    first[1:] = np.any(key[:, 1:] != key[:, :-1], axis=0)
+    cheapest = np.zeros(nx, dtype=bool)
+    cheapest[order[first]] = True
+    live = (unit[piece_idx] >= 0) & cheapest
+    T = coo_matrix((p.piece_length[piece_idx[live]],
+                    (np.flatnonzero(live), unit[piece_idx[live]] * groups.size + gpos[opt_idx[live]])),
+                   shape=(nx, ny)).tocsr()
+    nh = nv - nx
+
+    def substitute(A):
+        return hstack([A[:, :nx] @ T, A[:, nx:]]).tocsr()
+
+    one = coo_matrix((np.ones(ny), (np.repeat(np.arange(n_units), groups.size), np.arange(ny))),
+                     shape=(n_units, ny + nh)).tocsr()
+    cons = [LinearConstraint(substitute(m["A_eq"]), m["b_eq"], m["b_eq"]),
+            LinearConstraint(one, 1.0, 1.0)]
+    if m["A_ub"] is not None:
+        cons.append(LinearConstraint(substitute(m["A_ub"]), -np.inf, m["b_ub"]))
+    yub = np.ones((n_units, groups.size))
+    for gi in range(groups.size):
+        ok = p.allowed[:, gpos == gi].any(axis=1)
+        yub[np.unique(unit[(unit >= 0) & ~ok]), gi] = 0.0
+    c = np.concatenate([T.T @ m["c"][:nx], np.zeros(nh)])
+    res = milp(c, constraints=cons,
+               bounds=Bounds(np.concatenate([np.zeros(ny), np.full(nh, -np.inf)]),
+                             np.concatenate([yub.ravel(), np.full(nh, np.inf)])),
+               integrality=np.concatenate([np.ones(ny), np.zeros(nh)]),
+               options=dict(time_limit=time_limit, mip_rel_gap=mip_rel_gap))
+    if res.x is None:
+        if res.status == 1:
+            raise DesignError(f"no design with one pipe size per reach was found within the time "
+                              f"limit of {time_limit:g} s: allow size changes "
+                              "(design.one_size_per_reach = false)")
+        raise _infeasible(p, m, "a design with one pipe size per reach")
+    xv = T @ np.round(res.x[:ny])
+    bound = getattr(res, "mip_dual_bound", None)
+    cost = float(res.fun)
+    return SizingResult(lengths=_lengths(p, m, xv), cost=cost, method="MILP, one pipe size per reach",
+                        status="optimal" if res.status == 0 else "time limit (best found)",
+                        gap=float(getattr(res, "mip_gap", 0.0) or 0.0),
+                        lower_bound=float(bound if bound is not None else cost),
+                        split_pipe_cost=float("nan"), seconds=time.perf_counter() - t0,
+                        variables=ny + nh, constraints=sum(k.A.shape[0] for k in cons))
 
 
 def _units(p: SizingProblem, whole: str, pieces) -> tuple[NDArray, int]:

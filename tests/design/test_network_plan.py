@@ -166,3 +166,20 @@ def test_a_line_given_as_a_one_link_network_gets_the_same_design(demo_folder):
     np.testing.assert_allclose(path.energy.pressure_head, line.energy.pressure_head, atol=1e-6)
     np.testing.assert_allclose([s.surge_head_m for s in path.stretches],
                                [s.surge_head_m for s in line.stretches], rtol=1e-9)
+
+
+def test_an_impossible_outlet_on_a_tree_is_explained_in_metres(demo_folder):
+    """Issue 11: no solver status, but where and by how many metres a limit must give."""
+    from dataclasses import replace
+
+    from planner import api
+    from planner.errors import DesignError
+
+    sc = api.load_scenario(demo_folder / "scenario_network.toml")
+    outs = list(sc.outlets)
+    outs[0] = replace(outs[0], min_pressure_m=400.0)      # far above the source
+    with pytest.raises(DesignError) as info:
+        plan_network(replace(sc, outlets=tuple(outs)))
+    msg = str(info.value)
+    assert "at chainage" in msg and "m short of its minimum" in msg
+    assert "HiGHS" not in msg and "Status" not in msg
