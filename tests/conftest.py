@@ -80,3 +80,25 @@ def demo_folder(tmp_path_factory):
     for name in ("scenario.toml", "scenario_given_pipe.toml", "scenario_network.toml"):
         shutil.copy(ROOT / "demo_terrain" / name, folder / name)
     return folder
+
+
+@pytest.fixture(scope="session")
+def demo_run(demo_folder, tmp_path_factory):
+    """``demo_run(name)`` -> (output folder, printed output): ``gravplan plan`` of a demo
+    scenario, run once per test session and shared.  Tests only read these files."""
+    from click.testing import CliRunner
+
+    from planner.cli import main
+
+    done = {}
+
+    def run(name):
+        if name not in done:
+            out = tmp_path_factory.mktemp("run_" + name.replace(".toml", ""))
+            res = CliRunner().invoke(main, ["plan", str(demo_folder / name), "--out", str(out),
+                                            "--overwrite"])
+            assert res.exit_code == 0, res.output
+            done[name] = (out, res.output)
+        return done[name]
+
+    return run

@@ -51,10 +51,12 @@ def test_route_off_the_dem_names_the_chainage(runner, plane_dem, write_geojson):
     assert res.exit_code == 1 and "leaves the DEM" in res.output and "chainage" in res.output
 
 
-def test_plan_refuses_to_overwrite(runner, demo_folder, tmp_path):
+def test_plan_refuses_to_overwrite(runner, demo_folder, demo_run, tmp_path):
+    import shutil
+
     out = tmp_path / "out"
     scenario = str(demo_folder / "scenario.toml")
-    assert runner.invoke(main, ["plan", scenario, "--out", str(out)]).exit_code == 0
+    shutil.copytree(demo_run("scenario.toml")[0], out)      # an earlier plan in --out
     before = (out / "plan.json").read_bytes()
     res = runner.invoke(main, ["plan", scenario, "--out", str(out)])
     assert res.exit_code == 1 and "--overwrite" in res.output

@@ -13,11 +13,8 @@ from planner.cli import main
 
 
 @pytest.fixture(scope="module", params=["scenario.toml", "scenario_network.toml"])
-def out(request, demo_folder, tmp_path_factory):
-    folder = tmp_path_factory.mktemp("deliverables")
-    res = CliRunner().invoke(main, ["plan", str(demo_folder / request.param), "--out", str(folder)])
-    assert res.exit_code == 0, res.output
-    return folder
+def out(request, demo_run):
+    return demo_run(request.param)[0]
 
 
 def stretches_and_features(plan):

@@ -24,14 +24,11 @@ FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-ne
 
 
 @pytest.fixture(scope="module")
-def map_page(demo_folder, tmp_path_factory):
+def map_page(demo_run):
     if CHROMIUM is None:
         pytest.fail("Chromium is needed for the browser tests: apt-get install chromium "
                     "(.ci/run does this)")
-    out = tmp_path_factory.mktemp("map")
-    res = CliRunner().invoke(main, ["plan", str(demo_folder / "scenario.toml"), "--out", str(out)])
-    assert res.exit_code == 0, res.output
-    return out / "map.html"
+    return demo_run("scenario.toml")[0] / "map.html"
 
 
 def chromium(*args):

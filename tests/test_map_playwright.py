@@ -10,11 +10,8 @@ import playwright.sync_api as pw   # a test extra: `make test` installs it
 
 
 @pytest.fixture(scope="module")
-def page(demo_folder, tmp_path_factory):
-    out = tmp_path_factory.mktemp("pw")
-    res = CliRunner().invoke(main, ["plan", str(demo_folder / "scenario_network.toml"),
-                                    "--out", str(out)])
-    assert res.exit_code == 0, res.output
+def page(demo_run):
+    out, _ = demo_run("scenario_network.toml")
     blocked, errors = [], []
     with pw.sync_playwright() as p:
         browser = p.chromium.launch(executable_path=CHROMIUM, headless=True,

@@ -77,10 +77,8 @@ def test_paths_join_links_without_gaps(tree):
         assert path.profile.length_m == pytest.approx(expected)
 
 
-def test_cli_writes_the_network_outputs(demo_folder, tmp_path):
-    res = CliRunner().invoke(main, ["plan", str(demo_folder / "scenario_network.toml"),
-                                    "--out", str(tmp_path)])
-    assert res.exit_code == 0, res.output
+def test_cli_writes_the_network_outputs(demo_run):
+    tmp_path, _ = demo_run("scenario_network.toml")
     data = json.loads((tmp_path / "plan.json").read_text())
     assert data["schema"] == "gravplan.network/1" and len(data["links"]) == 5
     assert len(data["drawings"]) == 3
