@@ -73,20 +73,40 @@ _DERATING = {
 }
 
 
+#: Material names (upper case, or their start) of each derating family.
+_FAMILY_NAMES = {"PE": ("PE", "HDPE", "MDPE", "LDPE"), "PVC": ("PVC",),
+                 "STEEL": ("GI", "GS", "STEEL", "GALV", "DI", "DUCTILE")}
+
+
 def derating_family(material: str) -> str:
-    """``"PE"``, ``"PVC"`` or ``"STEEL"`` for a catalogue material name."""
-    m = material.upper()
-    if m.startswith("PE"):
-        return "PE"
+    """``"PE"``, ``"PVC"`` or ``"STEEL"`` for a catalogue material name.
+
+    Raises ValueError for a material of none of these families (PP-R, GRP, ...), whose
+    derating gravplan does not know: it is never guessed.
+
+    Examples
+    --------
+    >>> derating_family("HDPE"), derating_family("PVC-U"), derating_family("GI")
+    ('PE', 'PVC', 'STEEL')
+    """
+    m = material.upper().replace(" ", "")
     if "PVC" in m:
         return "PVC"
-    return "STEEL"
+    for family, names in _FAMILY_NAMES.items():
+        if any(m.startswith(n) for n in names) and not m.startswith(("PP", "PERT", "PE-RT", "PEX")):
+            return family
+    raise ValueError(f"the temperature derating of material {material!r} is not known "
+                     "(gravplan knows PE, PVC and steel): above 20 degC it is needed; enter the "
+                     "derated rating in the catalogue and keep the pipe temperature at 20 degC "
+                     "or below")
 
 
 def temperature_factor(material: str, temperature_c: float) -> float:
     """Factor on the 20 degC pressure rating at a wall temperature [-].
 
-    Raises ValueError above the last tabulated temperature (the pipe is not rated there).
+    Ratings are stated at 20 degC, so the factor there and below is 1 for any material.
+    Raises ValueError above the last tabulated temperature (the pipe is not rated there)
+    and, above 20 degC, for a material whose derating is not known.
 
     Examples
     --------
@@ -95,6 +115,8 @@ def temperature_factor(material: str, temperature_c: float) -> float:
     >>> temperature_factor("PVC-U", 20.0)
     1.0
     """
+    if temperature_c <= 20.0:
+        return 1.0
     table = _DERATING[derating_family(material)]
     t = np.array([p[0] for p in table])
     f = np.array([p[1] for p in table])

@@ -94,3 +94,17 @@ def test_filters_and_errors(tmp_path):
     good.write_text("material,label,outside_diameter_mm,inside_diameter_mm,pressure_rating_bar,"
                     "roughness_mm,hazen_williams_c,cost_per_m\nPE100,x,0.11,0.09,16,0.007,150,4\n")
     assert load_catalogue(good)[0].inside_diameter == pytest.approx(0.09e-3)
+
+
+def test_unknown_material_is_not_derated_as_steel():
+    """Issue 11: PP-R or GRP were given steel's factor 1.0 at 40 degC; now refused above
+    20 degC (where a rating is stated, any material's factor is 1)."""
+    import pytest
+
+    from planner.catalogue.standards import temperature_factor
+
+    assert temperature_factor("HDPE", 40.0) == pytest.approx(0.74)    # PE, ISO 4427-1
+    assert temperature_factor("PP-R", 20.0) == 1.0
+    for material in ("PP-R", "GRP"):
+        with pytest.raises(ValueError, match="derating of material"):
+            temperature_factor(material, 40.0)
