@@ -10,6 +10,7 @@ from pathlib import Path
 import click
 
 from .errors import PlannerError
+from .geo.profile import DEFAULT_COVER_M, DEFAULT_MAX_VOID_M
 
 DEMO_SCENARIO = Path(__file__).resolve().parent.parent / "demo_terrain" / "scenario.toml"
 
@@ -64,8 +65,9 @@ def main(verbose):
 @click.option("--dem", "dems", multiple=True, required=True, type=click.Path(path_type=Path),
               help="DEM file (GeoTIFF, VRT, ...); repeat for several tiles.")
 @click.option("--spacing", type=float, default=None, help="Largest point spacing [m]; default the DEM cell size.")
-@click.option("--cover", type=float, default=0.8, show_default=True, help="Cover over the pipe [m].")
-@click.option("--max-void", type=float, default=150.0, show_default=True,
+@click.option("--cover", type=float, default=DEFAULT_COVER_M, show_default=True,
+              help="Cover over the pipe [m].")
+@click.option("--max-void", type=float, default=DEFAULT_MAX_VOID_M, show_default=True,
               help="Longest DEM void bridged along the line [m].")
 @click.option("--out", type=click.Path(dir_okay=False, path_type=Path), default=None,
               help="Write the profile as CSV here (default: standard output).")

@@ -17,6 +17,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import InputError, InputFileError, UnitWarning
+from .geo.profile import DEFAULT_COVER_M, DEFAULT_MAX_VOID_M
 from .hydraulics.friction import FRICTION_METHODS
 from .units import BAR, LPS, MM
 
@@ -33,7 +34,7 @@ class Project:
 class Terrain:
     dem: tuple[Path, ...]
     vertical_datum: str = "as the DEM (not stated)"
-    max_void_m: float = 150.0
+    max_void_m: float = DEFAULT_MAX_VOID_M
 
 
 @dataclass(frozen=True)
@@ -109,7 +110,7 @@ class Criteria:
     friction: str = "colebrook"
     temperature_c: float = 20.0
     pipe_temperature_c: float | None = None
-    cover_m: float = 0.8
+    cover_m: float = DEFAULT_COVER_M
     entrance_k: float = 0.5
     velocity_min_mps: float = 0.3
     velocity_max_mps: float = 3.0
@@ -392,7 +393,7 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
             dems = []
         terrain = Terrain(dem=tuple(base / d for d in dems),
                           vertical_datum=t.get("vertical_datum", "as the DEM (not stated)"),
-                          max_void_m=float(t.get("max_void_m", 150.0)))
+                          max_void_m=float(t.get("max_void_m", DEFAULT_MAX_VOID_M)))
         _positive(problems, "terrain.max_void_m", t.get("max_void_m"), allow_zero=True)
     r = sec["route"]
     route = RouteSpec(file=base / r.get("file", ""), spacing_m=r.get("spacing_m"), crs=r.get("crs"),

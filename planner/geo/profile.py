@@ -24,8 +24,11 @@ from ..errors import InputError, NoDataWarning, TerrainError, TerrainWarning
 from .route import WGS84, Route, Survey, read_route, route_from_line
 from .terrain import Dem, open_dem
 
-#: Longest DEM void that is bridged by linear interpolation along the line [m].
+#: Longest DEM void that is bridged by linear interpolation along the line [m]
+#: (common practice: about two crests' spacing on a 30 m DEM).
 DEFAULT_MAX_VOID_M = 150.0
+#: Cover from ground to pipe [m]: rural mains in fields (common practice).
+DEFAULT_COVER_M = 0.8
 #: Scale distortion of a projected CRS above which the user is told [-].
 DISTORTION_LIMIT = 1e-3
 _GEOD = Geod(ellps="WGS84")
@@ -198,7 +201,7 @@ def _as_route(route) -> Route:
     raise InputError(f"route must be a path, a shapely LineString or a Route, got {type(route)}")
 
 
-def sample_profile(route, dem, spacing_m: float | None = None, cover_m: float = 0.8, *,
+def sample_profile(route, dem, spacing_m: float | None = None, cover_m: float = DEFAULT_COVER_M, *,
                    max_void_m: float = DEFAULT_MAX_VOID_M,
                    vertical_datum: str | None = None) -> Profile:
     """Sample a DEM along a route.
@@ -349,7 +352,7 @@ def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum)
     )
 
 
-def profile_from_survey(survey: Survey, cover_m: float = 0.8, *,
+def profile_from_survey(survey: Survey, cover_m: float = DEFAULT_COVER_M, *,
                         vertical_datum: str | None = None) -> Profile:
     """A profile from a surveyed line (chainage and ground elevation).
 
