@@ -20,7 +20,6 @@ BUILTIN = {"pe100": "pe100.csv", "pe80": "pe80.csv", "pvc-u": "pvc-u.csv",
            "gi-medium": "gi-medium.csv"}
 REQUIRED = ("material", "label", "outside_diameter_mm", "inside_diameter_mm",
             "pressure_rating_bar", "roughness_mm", "hazen_williams_c", "cost_per_m")
-OPTIONAL = ("nominal_size", "wall_mm", "sdr", "elastic_modulus_gpa", "dimension_source")
 
 
 @dataclass(frozen=True)

@@ -51,9 +51,6 @@ class RouteNetwork:
     root: int
     notes: tuple[str, ...] = field(default=())
 
-    def children(self, node: int) -> list[NetworkLink]:
-        return [k for k in self.links if k.upstream == node]
-
     @property
     def leaves(self) -> list[int]:
         ups = {k.upstream for k in self.links}

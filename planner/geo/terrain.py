@@ -111,12 +111,6 @@ class Dem:
         b = np.array([ds.bounds for ds in self._datasets])
         return (b[:, 0].min(), b[:, 1].min(), b[:, 2].max(), b[:, 3].max())
 
-    @property
-    def vertical_units(self) -> str | None:
-        """Units of band 1 as stored in the file, if any."""
-        units = self._datasets[0].units
-        return units[0] if units and units[0] else None
-
     def describe(self) -> str:
         """Short text for reports: files, CRS and pixel size."""
         names = ", ".join(p.name for p in self.paths)
