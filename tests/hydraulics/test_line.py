@@ -8,7 +8,7 @@ from planner.errors import InputError
 from planner.hydraulics.line import FreeSurface, PipeHydraulics, line_energy, segment_flows
 from planner.units import G, LPS
 
-NU = 1.0034e-6          # water at 20 C [m2/s], ../shared/domain.md section 1.4 (IAPWS)
+NU = 1.0034e-6          # water at 20 C [m2/s] (IAPWS-95 density, IAPWS 2008 viscosity)
 D, EPS = 0.090, 1.5e-6
 
 

@@ -8,7 +8,7 @@ from planner.hydraulics.line import FreeSurface, PipeHydraulics
 from planner.hydraulics.network import LinkData, accumulate_flows, tree_energy
 from planner.units import G, LPS
 
-NU = 1.0034e-6          # water at 20 C (../shared/domain.md 1.4, IAPWS)
+NU = 1.0034e-6          # water at 20 C (IAPWS-95 density, IAPWS 2008 viscosity)
 
 
 def straight(length, z0, z1, n=11):

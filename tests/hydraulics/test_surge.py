@@ -9,7 +9,7 @@ G = 9.80665
 
 
 @pytest.mark.parametrize("d, e, modulus, a_expected", [
-    # ../shared/domain.md 6 [C], K = 2.19 GPa, rho = 998.2 kg/m3, psi = 1, mean diameter
+    # Korteweg's formula computed by hand, K = 2.19 GPa, rho = 998.2 kg/m3, psi = 1, mean diameter
     (0.100, 0.010, 1.0e9, 310), (0.100, 0.010, 0.8e9, 278),
     (0.1034, 0.0066, 1.0e9, 249),                       # PE100 SDR17 (110 x 6.6)
     (0.1058, 0.0042, 3.0e9, 336),                       # PVC SDR26 (110 x 4.2)
@@ -20,7 +20,7 @@ def test_korteweg_wave_speeds(d, e, modulus, a_expected):
 
 
 @pytest.mark.parametrize("modulus_psi, dr, psi_per_fps", [
-    # published PVC / HDPE surge table (AWWA-style; ../shared/domain.md 6): surge pressure per
+    # published PVC / HDPE surge table (AWWA M23 / M55 style, from memory): surge pressure per
     # 1 ft/s of velocity change, PVC (E = 400,000 psi) 10.8 at DR51 to 19 at DR14, HDPE
     # (E = 115,000 psi) 8.8 at DR21 to 16.3 at DR7.3.  The table's own constants are not
     # printed, so the check is to 6 %.
@@ -33,7 +33,7 @@ def test_surge_per_foot_per_second_against_the_published_table(modulus_psi, dr, 
 
 
 def test_joukowsky_and_closure_time():
-    # ../shared/domain.md 6 worked check [C]: a = 310 m/s, V = 0.786 m/s -> 24.8 m; 2 km -> 12.9 s
+    # worked by hand (Joukowsky; t_c = 2L/a): a = 310 m/s, V = 0.786 m/s -> 24.8 m; 2 km -> 12.9 s
     assert sg.joukowsky_head(310.0, 0.786) == pytest.approx(310 * 0.786 / G)
     assert sg.joukowsky_head(310.0, 0.786) == pytest.approx(24.8, abs=0.05)
     assert sg.critical_closure_time(2000.0, 310.0) == pytest.approx(12.9, abs=0.05)
