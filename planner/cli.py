@@ -9,6 +9,7 @@ from pathlib import Path
 
 import click
 
+from .cautions import SHORT_CAUTION
 from .errors import PlannerError
 from .geo.profile import DEFAULT_COVER_M, DEFAULT_MAX_VOID_M
 
@@ -102,8 +103,7 @@ def _findings_and_files(findings, written):
                 click.echo(f"            -> {f.remedy}")
     for path in written.values():
         click.echo(f"  wrote {path}")
-    click.echo("  Planning aid only: confirm levels in the field; local codes and a licensed "
-               "engineer take precedence.")
+    click.echo(f"  {SHORT_CAUTION}")
 
 
 def _report(plan, written):
@@ -319,8 +319,7 @@ def serve(scenario, port, open_):
     app = _run(start)
     click.echo(f"gravplan serve: editing {app.session.scenario.project.name}")
     click.echo(f"  open {app.url} (Ctrl-C stops); Save writes {app.target}")
-    click.echo("  Planning aid only: confirm levels in the field; local codes and a licensed "
-               "engineer take precedence.")
+    click.echo(f"  {SHORT_CAUTION}")
     if open_:
         import webbrowser
         webbrowser.open(app.url)

@@ -25,6 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..cautions import CAUTIONS
 from ..geo.terrain import Dem, read_overview
 from ..report.offline import ASSETS, asset, css_with_data_uris
 
@@ -33,10 +34,7 @@ STATIC = Path(__file__).resolve().parent / "static"
 SHADE_PIXELS = 900
 CURSOR_PIXELS = 400
 
-CAUTION = ("Planning aid only. Elevations come from a DEM and can be metres off, more under "
-           "forest and in steep valleys: confirm levels in the field before design. Check "
-           "pressures, surge and water quality against local codes; a licensed engineer "
-           "takes precedence.")
+CAUTION = f"{CAUTIONS[0]} {CAUTIONS[-1]}"
 
 
 def _png_data_uri(rgba: np.ndarray) -> str:

@@ -15,7 +15,7 @@ import tempfile
 from pathlib import Path
 
 from .files import atomic_path, write_text
-from .plan_json import CAUTIONS
+from ..cautions import CAUTIONS
 
 LIMITATIONS = (
     "Steady flow at the design flow only: no extended-period simulation, no transient analysis "

@@ -14,21 +14,12 @@ from pathlib import Path
 import numpy as np
 
 from .. import __version__
+from ..cautions import CAUTIONS
 from ..design.plan import Plan
 from ..units import BAR, G, LPS
 from .files import write_text
 
 SCHEMA = "gravplan.plan/1"
-CAUTIONS = (
-    "Planning aid only: elevations from a DEM can be wrong by several metres (more under "
-    "trees); confirm levels by field survey before construction.",
-    "Static pressures assume every outlet closed with the line full; surge is a first "
-    "estimate (Joukowsky, Michaud) for the stated closure time and can be higher at tees and "
-    "size changes: close valves slowly.",
-    "Sub-atmospheric pressure lets contaminated water in at leaks: never accept it in a "
-    "drinking-water line.",
-    "Local codes, standards and a licensed engineer's review take precedence over this result.",
-)
 
 
 def _r(values, digits):

@@ -14,6 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..cautions import SHORT_CAUTION
 from ..design.checks import stretches
 from ..design.plan import Plan
 from .files import atomic_path
@@ -74,8 +75,7 @@ def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
     prof = plan.profile
     fig.text(0.01, 0.005,
              f"Vertical exaggeration about {ve:,.0f}:1.  Elevations: {prof.elevation_source}; "
-             f"datum {prof.vertical_datum}; CRS {prof.crs}.  Planning aid only - confirm levels in "
-             "the field; local codes and a licensed engineer take precedence.",
+             f"datum {prof.vertical_datum}; CRS {prof.crs}.  " + SHORT_CAUTION,
              fontsize=7, color="#333333")
     return fig
 

@@ -14,10 +14,12 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
+import textwrap
 from pathlib import Path
 
 import numpy as np
 
+from ..cautions import CAUTIONS
 from .files import atomic_path
 from .profile_plot import axes_size_in, draw_panels
 
@@ -112,15 +114,9 @@ def draw_sheet(plan, window, number: int, total: int, *, sheet: str = "A3",
         axis.set_xticks([])
         axis.set_yticks([])
     notes.text(0.01, 0.95, "Notes and cautions", fontsize=8, weight="bold", va="top")
-    notes.text(0.01, 0.78,
-               "1. Planning aid only. Elevations come from a DEM and can be wrong by several metres\n"
-               "   (more under trees): confirm the levels of crests, low points, tanks and outlets\n"
-               "   by field survey before construction.\n"
-               "2. Static heads assume all outlets closed; surge from fast valve closure adds to them.\n"
-               "   Close valves slowly.\n"
-               "3. Pressure below atmospheric lets dirty water in at any leak: not acceptable.\n"
-               "4. Local codes, standards and a licensed engineer's review take precedence.",
-               fontsize=6.5, va="top", family="monospace")
+    notes.text(0.01, 0.78, "\n".join(
+        textwrap.fill(f"{i}. {c}", width=120, subsequent_indent="   ")
+        for i, c in enumerate(CAUTIONS, start=1)), fontsize=6.5, va="top", family="monospace")
     today = date or _dt.date.today().isoformat()
     lines = [
         ("project", sc.project.name), ("reference", sc.project.reference or "-"),

@@ -13,6 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..cautions import SHORT_CAUTION
 from .files import write_text
 from .offline import make_offline
 
@@ -237,8 +238,7 @@ def build_map(plan, *, terrain=None, title: str | None = None, outlet_risk=None)
                  padding=(40, 40))
     heading = (f"<div style='position:fixed;top:10px;left:60px;z-index:1000;background:white;"
                f"padding:6px 10px;border:1px solid #888;font:13px sans-serif;max-width:60%'>"
-               f"<b>{esc(title or sc.project.name)}</b><br>Planning aid only: confirm levels in the "
-               f"field; local codes and a licensed engineer take precedence.</div>")
+               f"<b>{esc(title or sc.project.name)}</b><br>{esc(SHORT_CAUTION)}</div>")
     m.get_root().html.add_child(folium.Element(heading))
     dot = ("<span style='display:inline-block;width:11px;height:11px;border-radius:6px;"
            "border:1px solid #000;background:{};margin-right:5px'></span>{}<br>")
