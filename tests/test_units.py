@@ -12,6 +12,7 @@ def test_ten_metres_of_water_is_098_bar():
 
 
 def test_one_bar_in_metres():
-    # computed with IAPWS-95 (rho = 998.21 kg/m3 at 20 C): 1 bar = 10.216 m, 10.197 m with rho = 1000
+    # computed with IAPWS-95 (rho = 998.21 kg/m3 at 20 C): 1 bar = 10.216 m,
+    # 10.197 m with rho = 1000
     assert head_from_pressure(BAR, density(20.0)) == pytest.approx(10.216, abs=0.001)
     assert head_from_pressure(BAR, 1000.0) == pytest.approx(10.197, abs=0.001)

@@ -21,7 +21,7 @@ DATA = Path(__file__).resolve().parent / "data"
 SDRS = (26, 21, 17, 13.6, 11, 9)
 # ISO 4427-2 / EN 12201-2 minimum wall e_min [mm] by outside diameter, for the SDRs above.
 # Rows marked "table": the ISO 4427-2:2007 wall table, cross-checked against DIN 8074, MS
-# 1058-2 Table 1 and two makers' tables.  Rows marked "memory": recalled.
+# 1058-2:2005 Table 1 and two makers' tables.  Rows marked "memory": from memory.
 PE_WALLS = {
     20: ("table", (None, None, None, None, 2.0, 2.3)),
     25: ("table", (None, None, None, 2.0, 2.3, 3.0)),
@@ -46,7 +46,8 @@ PE_WALLS = {
 # 2.0 from 110 mm; from memory)
 PVC_SDR = {"small": {6: 33, 10: 21, 16: 13.6}, "large": {6: 41, 10: 26, 16: 17}}
 PVC_SIZES = (40, 50, 63, 75, 90, 110, 125, 140, 160, 200, 250, 315)
-# ISO 65 / EN 10255 medium series: (label, DN, OD mm, wall mm); EN 10255:2004 table (2 1/2" and 3" walls from memory)
+# ISO 65 / EN 10255 medium series: (label, DN, OD mm, wall mm); EN 10255:2004 medium
+# series table (the 2 1/2 and 3 in walls from memory)
 GI_MEDIUM = (("1/2 in", 15, 21.3, 2.6), ("3/4 in", 20, 26.9, 2.6), ("1 in", 25, 33.7, 3.2),
              ("1 1/4 in", 32, 42.4, 3.2), ("1 1/2 in", 40, 48.3, 3.2), ("2 in", 50, 60.3, 3.6),
              ("2 1/2 in", 65, 76.1, 3.6), ("3 in", 80, 88.9, 4.0), ("4 in", 100, 114.3, 4.5))

@@ -105,7 +105,8 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
     if elevation is not None:
         from ..hydraulics.water import atmospheric_pressure, density, vapour_pressure
         rho_g = density(temperature_c) * G
-        # at most H_atm(z) - H_v(T) - a margin below atmospheric (ISA atmosphere, ISO 2533:1975; vapour pressure IAPWS-IF97)
+        # at most H_atm(z) - H_v(T) - a margin below atmospheric (standard atmosphere,
+        # ISO 2533:1975; vapour pressure, IAPWS-IF97; the margin is common practice)
         siphon_limit = -((atmospheric_pressure(elevation) - vapour_pressure(temperature_c))
                          / rho_g - criteria.siphon_margin_m)
     for a, b in stretches(pressure_head < 0):
@@ -175,8 +176,9 @@ def check_outlet(name: str, chainage: float, pressure_head: float, min_pressure:
 
     Too much pressure at a tap wastes water and breaks taps and floats: the maximum is
     the outlet's own ``max_pressure_m`` or ``criteria.max_outlet_pressure_m`` (60 m,
-    the upper design value listed in Malaysian distribution criteria, as read in
-    from memory; South Africa's DWAF 2004 rural water supply guideline caps static at 90 m).
+    the upper value listed in Malaysian water distribution design criteria; that it is
+    meant as a maximum is from memory.  South Africa's Department of Water Affairs and
+    Forestry rural water supply guidelines, DWAF 2004, cap static pressure at 90 m).
     """
     if max_pressure is not None and pressure_head > max_pressure + 1e-3:
         return [Finding(

@@ -16,7 +16,9 @@ from ..errors import InputError
 DAY = 86_400.0
 
 #: Peak factor on the average day for public taps with storage (2-3) and without (3-4):
-#: common practice (the Tanzania Ministry of Water's Design, Construction Supervision, Operation and Maintenance (DCOM) manual, 4th ed., ch. 4, tabulates them).
+#: common practice (Tanzania Ministry of Water, "Design, Construction Supervision,
+#: Operation and Maintenance (DCOM) Manual", 4th ed., ch. 4, tabulates peak factors
+#: by consumer type).
 PEAK_FACTOR_WITH_STORAGE = 3.0
 #: Flow of one public tap [m^3/s]: Sphere's 7.5 L/min per tap (from memory; Sphere 2011/2018).
 TAP_FLOW = 7.5e-3 / 60.0
@@ -100,7 +102,10 @@ def irrigation_flow(area_ha: float, crop_water_mm_per_day: float, *, efficiency:
 
     ``Q = A x ETc / (E x H / 24)``: the peak crop water need ``ETc`` (FAO-56,
     ``ETc = Kc ET0``) over the application efficiency ``E`` (about 0.8 for sprinklers, 0.9
-    for drip), delivered in ``H`` hours of operation a day (ET_c after Allen et al., FAO Irrigation and Drainage Paper 56, 1998).
+    for drip), delivered in ``H`` hours of operation a day.  ``ETc`` after Allen, Pereira,
+    Raes & Smith, "Crop evapotranspiration", FAO Irrigation and Drainage Paper 56, 1998;
+    the continuous-flow capacity form is common practice, and E = 0.9 for drip is from
+    memory.
 
     Examples
     --------

@@ -13,7 +13,8 @@ from .._arrays import as_output
 from ..units import G
 
 #: Bulk modulus of water at 20 degC [Pa]: rho c^2 with c = 1483 m/s, or LSBU's adiabatic
-#: compressibility 0.4559 1/GPa (Chaplin, "Water properties", London South Bank University table).
+#: compressibility 0.4559 1/GPa (M. Chaplin, "Water structure and science: water
+#: properties", London South Bank University, online table).
 WATER_BULK_MODULUS = 2.19e9
 
 

@@ -43,7 +43,8 @@ def test_pe_walls_match_the_standard_table(label, wall):
 
 
 def test_wall_rule():
-    # ISO 4065: e = OD / SDR rounded up to 0.1 mm; 110/11 = 10.0 (ISO 4065)
+    # ISO 4065 (universal wall thickness table): e = OD / SDR rounded up to 0.1 mm;
+    # 110/11 = 10.0; the 2.0 mm floor is the smallest wall in ISO 4427-2
     assert wall_from_sdr(110, 11) == 10.0
     assert wall_from_sdr(160, 26) == 6.2
     assert wall_from_sdr(20, 26) == 2.0          # floor of 2.0 mm

@@ -14,7 +14,8 @@ def test_fao_one_litre_per_second_per_hectare_is_8_64_mm_per_day():
 
 
 def test_irrigation_block_worked_example():
-    # computed from the FAO-56 water balance (Allen et al. 1998): 5 ha, ETc 6 mm/day, drip E = 0.9, 12 h/day -> 7.7 L/s
+    # computed by hand, ETc as in FAO-56 (Allen et al. 1998): 5 ha, ETc 6 mm/day,
+    # drip E = 0.9, 12 h/day -> 7.7 L/s
     assert demand.irrigation_flow(5, 6, efficiency=0.9, hours_per_day=12) * 1e3 == \
         pytest.approx(7.7, abs=0.05)
 

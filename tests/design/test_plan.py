@@ -202,8 +202,8 @@ def test_siphon_allowed_up_to_the_vapour_limit(tmp_path, write_geojson, hump, ex
     plan = plan_scenario(load_scenario(scenario(tmp_path, criteria="allow_siphon = true")))
     codes = {(f.severity, f.code) for f in plan.findings}
     lowest = float(np.min(plan.energy.pressure_head))
-    # vapour limit near 1,200 m (ISA atmosphere, ISO 2533; IAPWS-IF97): H_atm 8.9 m - H_v 0.24 m, less the
-    # 2.5 m margin = 6.2 m below atmospheric
+    # vapour limit near 1,200 m (standard atmosphere, ISO 2533; IAPWS-IF97): H_atm 8.9 m
+    # - H_v 0.24 m, less the 2.5 m margin = 6.2 m below atmospheric
     assert (lowest > -6.2) == (expected[0] == "warning")
     assert expected in codes
     assert ("error", "air-valve-vacuum") in codes          # a crest valve there would admit air

@@ -67,7 +67,8 @@ def test_non_convergence_is_reported():
 
 
 @pytest.mark.parametrize("q_lps, d_mm, eps_mm, hf_dw", [
-    # check cases computed with `fluids` (Colebrook), 1 km, water at 20 C (nu = 1.0034e-6)
+    # computed with `fluids` (Colebrook 1939, solved by Clamond 2009), 1 km, water at 20 C
+    # (nu = 1.0034e-6 from IAPWS-95 and IAPWS 2008)
     (5, 90.0, 0.0015, 6.81), (2, 51.4, 0.0015, 19.40), (1, 44.0, 0.0015, 11.92),
     (10, 101.6, 0.0015, 13.19), (0.5, 27.3, 0.15, 47.25), (2, 53.1, 0.15, 22.22),
     (10, 105.3, 0.045, 12.47)])

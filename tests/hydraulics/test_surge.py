@@ -20,7 +20,8 @@ def test_korteweg_wave_speeds(d, e, modulus, a_expected):
 
 
 @pytest.mark.parametrize("modulus_psi, dr, psi_per_fps", [
-    # published PVC / HDPE surge table (AWWA M23 / M55 style, from memory): surge pressure per
+    # published PVC / HDPE surge table (of the kind printed in AWWA Manual M23, PVC Pipe, and
+    # M55, PE Pipe - Design and Installation; which manual, from memory): surge pressure per
     # 1 ft/s of velocity change, PVC (E = 400,000 psi) 10.8 at DR51 to 19 at DR14, HDPE
     # (E = 115,000 psi) 8.8 at DR21 to 16.3 at DR7.3.  The table's own constants are not
     # printed, so the check is to 6 %.
