@@ -34,7 +34,7 @@ from .checks import Finding, check_uncertainty, check_yield, gravity_reachable
 from .uncertainty import Uncertainty, line_uncertainty, model_for
 from .features import Feature, place_features
 from .plan import (RECHECK_ROUNDS, finding_order, OutletResult, Stretch, TankResult,
-                   _build_line, _surge_pool, solve_design,
+                   _build_line, _surge_pool, size_groups, solve_design, tighten,
                    build_profile,
                    _candidate_data, _cheapest_per_size, _split_points, _stretches,
                    _wave_speeds, line_findings, pipe_options, static_limit)
@@ -345,16 +345,8 @@ def plan_network(scenario: Scenario, *, lines=None, dem=None) -> NetworkPlan:
         energies, remaps, req_r = _tree_exact(profiles, built, parents, surfaces, placed,
                                               children, total_in, options, required, line_req,
                                               top, low, nu, cr, point_k)
-        converged = True
-        for k in range(L):
-            short = req_r[k] - energies[k].pressure_head
-            if np.any(short > 5e-4):
-                converged = False
-            rch = built[k][0].chainage_m
-            for i in np.flatnonzero(short > 5e-4):
-                j = min(int(np.searchsorted(profiles[k].chainage_m, rch[i] - 1e-9)),
-                        profiles[k].n - 1)
-                extra[k][j] += short[i] + 1e-3
+        converged = all([tighten(extra[k], profiles[k].chainage_m, built[k][0].chainage_m,
+                                 req_r[k] - energies[k].pressure_head) for k in range(L)])
         if converged:
             break
     single = best_single_size(problem)[0]
@@ -491,14 +483,11 @@ def _tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allo
                 start_k.append(cr.entrance_k + point_k[k][a])
             arrival.append(surf[r + 1].static_level + cr.tank_inlet_head_m + 1e-3
                            if r + 1 < len(surf) else -np.inf)
-    groups = {}
-    group = np.array([groups.setdefault((o.material, round(o.outside_diameter, 6)), len(groups))
-                      for o in options])
     problem = SizingProblem(
         splits=np.concatenate(split_g), position=np.concatenate(pos),
         unit_loss=np.vstack(loss_rows), velocity_head=np.vstack(hv_rows),
         allowed=np.vstack(allowed_rows), cost=np.array([o.cost_per_m for o in options]),
-        group=group, reaches=reaches, start_level=np.array(start), start_k=np.array(start_k),
+        group=size_groups(options), reaches=reaches, start_level=np.array(start), start_k=np.array(start_k),
         min_head=np.concatenate(min_h), arrival_min_head=np.array(arrival),
         point_k=np.concatenate(pk), parent_point=np.array(parent_pt, dtype=np.int64),
         max_head=np.concatenate(max_h))

@@ -396,13 +396,9 @@ def plan_scenario(scenario: Scenario, *, profile: Profile | None = None, dem=Non
             energy, remap, surfaces_r, req_r = _exact_energy(
                 prof, refined, seg_opt, options, surfaces, placed, point_k, required,
                 line_required, nu, cr)
-            short = req_r - energy.pressure_head
-            converged = bool(np.all(short <= 5e-4))
+            converged = tighten(extra, ch, refined.chainage_m, req_r - energy.pressure_head)
             if converged:
                 break
-            for i in np.flatnonzero(short > 5e-4):
-                j = min(int(np.searchsorted(ch, refined.chainage_m[i] - 1e-9)), n - 1)
-                extra[j] += short[i] + 1e-3
         single_cost = best_single_size(problem)[0] if compare_single_size else None
     if not design:
         energy, remap, surfaces_r, req_r = _exact_energy(
@@ -609,19 +605,40 @@ def _tank_sites(sc, prof, options, rating_head, top, fixed, margin) -> list[Tank
                        limit_reason=reason)
 
 
+#: Shortfall of the built line [m] above which the programme is tightened there.
+SHORT_TOL_M = 5e-4
+
+
+def size_groups(options: list[PipeOption]) -> NDArray[np.int64]:
+    """The size group of each option: one per (material, outside diameter)."""
+    groups: dict = {}
+    return np.array([groups.setdefault((o.material, round(o.outside_diameter, 6)), len(groups))
+                     for o in options])
+
+
+def tighten(extra: NDArray, chainage: NDArray, refined_chainage: NDArray, short: NDArray) -> bool:
+    """Raise the pressure asked of the programme where the built line fell short.
+
+    ``short`` [m] is per refined point; each shortfall (plus 1 mm) is added to ``extra``
+    at the profile point at or after it.  Returns whether nothing was short.
+    """
+    hit = np.flatnonzero(short > SHORT_TOL_M)
+    j = np.minimum(np.searchsorted(chainage, refined_chainage[hit] - 1e-9), chainage.size - 1)
+    np.add.at(extra, j, short[hit] + 1e-3)
+    return hit.size == 0
+
+
 def _cheapest_per_size(allowed: NDArray, options: list[PipeOption]) -> NDArray:
     """Keep, per segment and per (material, outside diameter), the cheapest admissible class.
 
     A higher class of the same size costs more and has a smaller bore, so it can never
     be part of a cheaper design once the lower class is admissible.
     """
-    keys = {}
-    for j, o in enumerate(options):
-        keys.setdefault((o.material, round(o.outside_diameter, 6)), []).append(j)
+    group = size_groups(options)
     out = np.zeros_like(allowed)
     cost = np.array([o.cost_per_m for o in options])
-    for cols in keys.values():
-        cols = np.array(cols)
+    for g in np.unique(group):
+        cols = np.flatnonzero(group == g)
         sub = np.where(allowed[:, cols], cost[cols][None, :], np.inf)
         best = np.argmin(sub, axis=1)
         ok = np.isfinite(sub[np.arange(sub.shape[0]), best])
@@ -706,13 +723,10 @@ def _problem(prof, options, allowed_k, loss_k, hv_k, surfaces, reaches, required
     """
     arrival = np.array([surfaces[r + 1].static_level + cr.tank_inlet_head_m + 1e-3
                         if r + 1 < len(surfaces) else -np.inf for r in range(len(reaches))])
-    groups = {}
-    group = np.array([groups.setdefault((o.material, round(o.outside_diameter, 6)), len(groups))
-                      for o in options])
     return SizingProblem(
         splits=splits, position=prof.slope_length_m, unit_loss=np.nan_to_num(loss_k, nan=0.0),
         velocity_head=np.nan_to_num(hv_k, nan=0.0),
-        allowed=allowed_k, cost=np.array([o.cost_per_m for o in options]), group=group,
+        allowed=allowed_k, cost=np.array([o.cost_per_m for o in options]), group=size_groups(options),
         reaches=reaches, start_level=np.array([f.operating_level for f in surfaces]),
         start_k=np.array([cr.entrance_k + point_k[f.index] for f in surfaces]),
         # 1 mm above each limit, so that rounding never shows a designed point as short

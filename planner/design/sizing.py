@@ -389,10 +389,7 @@ def _one_size_per_reach(p, m, time_limit, mip_rel_gap, t0) -> SizingResult:
             LinearConstraint(one, 1.0, 1.0)]
     if m["A_ub"] is not None:
         cons.append(LinearConstraint(substitute(m["A_ub"]), -np.inf, m["b_ub"]))
-    yub = np.ones((n_units, groups.size))
-    for gi in range(groups.size):
-        ok = p.allowed[:, gpos == gi].any(axis=1)
-        yub[np.unique(unit[(unit >= 0) & ~ok]), gi] = 0.0
+    yub = _open_sizes(p, unit, n_units, gpos, groups.size)
     c = np.concatenate([T.T @ m["c"][:nx], np.zeros(nh)])
     res = milp(c, constraints=cons,
                bounds=Bounds(np.concatenate([np.zeros(ny), np.full(nh, -np.inf)]),
@@ -433,6 +430,16 @@ def _units(p: SizingProblem, whole: str, pieces) -> tuple[NDArray, int]:
     return unit, int(chosen.sum())
 
 
+def _open_sizes(p: SizingProblem, unit: NDArray, n_units: int, gpos: NDArray,
+                ngroups: int) -> NDArray:
+    """1 where a size is open to a unit: only where every piece of the unit admits it."""
+    yub = np.ones((n_units, ngroups))
+    for gi in range(ngroups):
+        ok = p.allowed[:, gpos == gi].any(axis=1)
+        yub[np.unique(unit[(unit >= 0) & ~ok]), gi] = 0.0
+    return yub
+
+
 def _whole_choices(p, m, whole, pieces, time_limit, mip_rel_gap, t0, ncons) -> SizingResult:
     """The MILP: binaries y[u, g]; x[k, j] <= L_k y[u(k), g(j)]; sum_g y[u, g] = 1."""
     groups = np.unique(p.group)
@@ -455,12 +462,7 @@ def _whole_choices(p, m, whole, pieces, time_limit, mip_rel_gap, t0, ncons) -> S
     if m["A_ub"] is not None:
         cons.append(LinearConstraint(hstack([m["A_ub"], csr_matrix((m["A_ub"].shape[0], ny))]).tocsr(),
                                      -np.inf, m["b_ub"]))
-    # a size is open to a unit only where every piece of the unit admits it
-    yub = np.ones((max(n_units, 1), groups.size))[:n_units]
-    for gi in range(groups.size):
-        ok = p.allowed[:, gpos == gi].any(axis=1)
-        bad = np.unique(unit[(unit >= 0) & ~ok])
-        yub[bad, gi] = 0.0
+    yub = _open_sizes(p, unit, n_units, gpos, groups.size)
     bounds = _bounds(m)
     res = milp(np.concatenate([m["c"], np.zeros(ny)]), constraints=cons,
                bounds=Bounds(np.concatenate([bounds[:, 0], np.zeros(ny)]),

@@ -22,7 +22,7 @@ from planner.hydraulics import friction as fr
 from planner.hydraulics.line import FreeSurface, PipeHydraulics, line_energy
 from planner.scenario import Criteria
 
-NU = 1.004e-6          # kinematic viscosity of water at 20 degC [m^2/s] (IAPWS, as water.py)
+NU = 1.0034e-6         # water at 20 degC [m^2/s] (IAPWS-95 density, IAPWS 2008 viscosity)
 MARGIN = 1e-3          # the programme's stated margin above each limit [m]
 CR = Criteria()
 
