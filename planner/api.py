@@ -15,7 +15,8 @@ from pathlib import Path
 import numpy as np
 from pyproj import Transformer
 
-from .design.plan import Plan, build_profile, plan_scenario
+from .design.plan import build_profile, plan_network, plan_scenario
+from .design.results import NetworkPlan, Plan, as_line_plan
 from .geo.profile import Profile, profile_from_survey, sample_profile
 from .geo.route import WGS84, read_route
 from .geo.terrain import open_dem, read_overview
@@ -108,14 +109,12 @@ def _deliverables(plans, out: Path, *, junctions: int) -> dict[str, Path]:
 def plan_any(scenario: Scenario):
     """Plan a scenario: a single line, or a branched system when ``route.network`` is set."""
     if scenario.route.network:
-        from .design.network_plan import plan_network
         return plan_network(scenario)
     return plan_scenario(scenario)
 
 
 def write_any(plan_, out_dir: str | Path) -> dict[str, Path]:
     """Write a line's or a network's outputs (see :func:`write_outputs`)."""
-    from .design.network_plan import NetworkPlan
     if isinstance(plan_, NetworkPlan):
         return write_network_outputs(plan_, out_dir)
     return write_outputs(plan_, out_dir)
@@ -157,7 +156,6 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
     and map.html for a branched system, each file atomically."""
     import re
 
-    from .design.network_plan import as_line_plan
     from .report.plan_json import write_network_json
 
     out = Path(out_dir)

@@ -203,7 +203,7 @@ def _plan_and_write(scenario_path: Path, out: Path):
         return pl, api.write_any(pl, out)
 
     pl, written = _run(work)
-    from .design.network_plan import NetworkPlan
+    from .design.results import NetworkPlan
     if isinstance(pl, NetworkPlan):
         _report_network(pl, written)
     else:

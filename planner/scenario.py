@@ -181,6 +181,7 @@ class SurveyPoint:
     elevation_m: float
     chainage_m: float | None = None
     location: tuple[float, float] | None = None
+    link: str | None = None
 
 
 @dataclass(frozen=True)
@@ -251,7 +252,8 @@ TABLE_ARRAYS = {
     "break_pressure_tanks": {"name": (str, False), "chainage_m": (_NUM, True),
                              "water_above_ground_m": (_NUM, False), "link": (str, False)},
     "survey_points": {"name": (str, False), "elevation_m": (_NUM, True),
-                      "chainage_m": (_NUM, False), "location": (list, False)},
+                      "chainage_m": (_NUM, False), "location": (list, False),
+                      "link": (str, False)},
     "fittings": {"name": (str, False), "chainage_m": (_NUM, True), "k": (_NUM, True),
                  "link": (str, False)},
 }
@@ -543,7 +545,8 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                                 link=f.get("link")))
     if route.network:
         for what, items in (("break_pressure_tanks", arrays["break_pressure_tanks"]),
-                            ("fittings", arrays["fittings"]), ("outlets", arrays["outlets"])):
+                            ("fittings", arrays["fittings"]), ("outlets", arrays["outlets"]),
+                            ("survey_points", arrays["survey_points"])):
             for i, item in enumerate(items, start=1):
                 if "chainage_m" in item and "link" not in item:
                     problems.add(f"{what}[{i}]", "on a network, a chainage needs the link "
@@ -583,10 +586,8 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
         survey_points.append(SurveyPoint(name=sp.get("name", f"survey point {i}"),
                                          elevation_m=float(sp.get("elevation_m", 0.0)),
                                          chainage_m=sp.get("chainage_m"),
-                                         location=tuple(loc) if loc else None))
-    if survey_points and route.network:
-        problems.add("survey_points", "pinning surveyed levels is not yet supported on a "
-                     "branched system; pin them on each line planned alone")
+                                         location=tuple(loc) if loc else None,
+                                         link=sp.get("link")))
     if problems:
         listing = "\n  - ".join(problems)
         raise InputError(f"{path}: {len(problems)} problem(s) in the scenario:\n  - {listing}")

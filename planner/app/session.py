@@ -29,6 +29,8 @@ from shapely.geometry import LineString
 
 from ..errors import InputError, PlannerError
 from ..geo.route import route_from_line
+from ..design.plan import build_profile, plan_network, plan_scenario
+from ..design.results import NetworkPlan, as_line_plan
 from ..geo.terrain import open_dem
 from ..report.plan_json import json_number
 from ..units import LPS
@@ -216,7 +218,6 @@ def _line_summary(plan) -> dict:
 
 def summarise(plan) -> dict:
     """A JSON-ready digest of a line's or a network's plan for the live page."""
-    from ..design.network_plan import NetworkPlan, as_line_plan
 
     if isinstance(plan, NetworkPlan):
         L = len(plan.links)
@@ -294,11 +295,9 @@ class LiveSession:
     def _plan(self, lines):
         sc = self.scenario
         if sc.route.network:
-            from ..design.network_plan import plan_network
             return plan_network(sc, lines=lines, dem=self.dem)
         if len(lines) > 1:
             raise DrawingError(f"{len(lines)} lines are drawn, but this scenario is one line; "
                                "delete the extra lines, or set [route] network = true")
-        from ..design.plan import build_profile, plan_scenario
         prof = build_profile(sc, self.dem, route_from_line(lines[0][0], source="the drawn line"))
         return plan_scenario(sc, profile=prof, dem=self.dem, compare_single_size=False)

@@ -15,7 +15,7 @@ import numpy as np
 
 from .. import __version__
 from ..cautions import CAUTIONS
-from ..design.plan import Plan
+from ..design.results import Plan
 from ..units import BAR, G, LPS
 from .files import write_text
 

@@ -16,7 +16,7 @@ import numpy as np
 
 from ..cautions import SHORT_CAUTION
 from ..design.checks import stretches
-from ..design.plan import Plan
+from ..design.results import Plan
 from .files import atomic_path
 
 

@@ -9,7 +9,8 @@ from fluids.friction import Colebrook
 from iapws import IAPWS95
 
 from planner.cli import main
-from planner.design.network_plan import as_line_plan, plan_network
+from planner.design.plan import plan_network
+from planner.design.results import as_line_plan
 from planner.scenario import load_scenario
 
 G = 9.80665
@@ -179,5 +180,29 @@ def test_an_impossible_outlet_on_a_tree_is_explained_in_metres(demo_folder):
     with pytest.raises(DesignError) as info:
         plan_network(replace(sc, outlets=tuple(outs)))
     msg = str(info.value)
-    assert "at chainage" in msg and "m short of its minimum" in msg
+    # the pre-check with the largest pipes names the link, the chainage and both heads
+    assert "at chainage" in msg and "where 400.0 m is needed" in msg, msg
     assert "HiGHS" not in msg and "Status" not in msg
+
+
+def test_a_limit_met_alone_but_not_together_is_explained_in_metres(demo_folder):
+    """An outlet maximum below what its minimum needs upstream: the elastic programme's
+    explanation (how many metres each limit must give), never a solver status."""
+    from dataclasses import replace
+
+    from planner import api
+    from planner.errors import DesignError
+
+    sc = api.load_scenario(demo_folder / "scenario_network.toml")
+    outs = list(sc.outlets)
+    p = plan_network(sc)
+    o = next(x for x in p.outlets if x.name == outs[0].name)
+    # ask more than the current residual as a minimum, and a maximum just above it
+    outs[0] = replace(outs[0], min_pressure_m=o.pressure_head_m + 5.0,
+                      max_pressure_m=o.pressure_head_m + 5.5)
+    outs[1] = replace(outs[1], max_pressure_m=0.5)
+    with pytest.raises(DesignError) as info:
+        plan_network(replace(sc, outlets=tuple(outs)))
+    msg = str(info.value)
+    assert "the least the limits would have to give" in msg, msg
+    assert "at chainage" in msg and "HiGHS" not in msg and "Status" not in msg

@@ -15,7 +15,8 @@ import numpy as np
 import pytest
 
 from planner.catalogue.pipes import load_options
-from planner.design import plan as P
+from planner.design.explain import explain_infeasible
+from planner.design.problem import tree_problem
 from planner.design.sizing import SizingInfeasible, solve_sizing, solve_whole_pieces
 from planner.errors import DesignError
 from planner.hydraulics import friction as fr
@@ -69,11 +70,14 @@ def programme(line, opts):
     v = fr.velocity(line.flows[:, None], d[None, :])
     loss = fr.head_loss(line.flows[:, None], d[None, :], 1.0, method="colebrook",
                         roughness=rough[None, :], kinematic_viscosity=NU)
-    k = line.splits[:-1]
-    prof = SimpleNamespace(slope_length_m=line.sl, pipe_m=line.pipe)
-    allowed = np.ones((k.size, len(opts)), dtype=bool)
-    return P._problem(prof, opts, allowed, loss[k], fr.velocity_head(v)[k], line.surfaces,
-                      line.reaches, line.required, line.point_k, CR, line.splits)
+    n = line.n
+    prof = SimpleNamespace(n=n, slope_length_m=line.sl, pipe_m=line.pipe)
+    allowed = np.ones((line.splits.size - 1, len(opts)), dtype=bool)
+    p, _ = tree_problem([prof], [-1], [line.surfaces], [line.reaches], [line.splits], [allowed],
+                        [(v, fr.velocity_head(v), loss)], [line.required], [np.zeros(n)],
+                        np.array([0, n]), opts, line.surfaces[0].operating_level, CR,
+                        [np.full(n, np.inf)], [line.point_k])
+    return p
 
 
 def physics(line, opts, choice):
@@ -206,7 +210,7 @@ def test_infeasible_programme_names_the_limit_in_metres():
         solve_sizing(p)
     points = {pt for pt, _, _ in info.value.violations}
     assert 8 in points
-    msg = str(P.explain_infeasible(info.value, lambda i: f"at chainage {line.ch[i]:,.0f} m"))
+    msg = str(explain_infeasible(info.value, lambda i: f"at chainage {line.ch[i]:,.0f} m"))
     assert "at chainage 800 m" in msg and " m short of its minimum" in msg
     assert "HiGHS" not in msg and "Status" not in msg
 
@@ -238,7 +242,6 @@ def random_tree(seed):
 
 
 def tree_programme(tree, opts):
-    from planner.design.network_plan import _tree_problem
 
     d = np.array([o.inside_diameter for o in opts])
     rough = np.array([o.roughness for o in opts])
@@ -252,7 +255,7 @@ def tree_programme(tree, opts):
     surfaces = [[FreeSurface(0, tree.top, np.nan)]] * 3
     splits = [np.arange(3)] * 3
     allowed = [np.ones((2, len(opts)), dtype=bool)] * 3
-    p, rows = _tree_problem(profiles, tree.parents, surfaces, [[(0, 2)]] * 3, splits, allowed,
+    p, rows = tree_problem(profiles, tree.parents, surfaces, [[(0, 2)]] * 3, splits, allowed,
                             cand, tree.req, [np.zeros(3)] * 3, np.array([0, 3, 6, 9]), opts,
                             tree.low, CR, [np.full(3, np.inf)] * 3, [np.zeros(3)] * 3)
     return p, rows
