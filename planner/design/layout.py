@@ -161,7 +161,8 @@ def tree_layout(sc: Scenario, lines=None, dem=None) -> Layout:
     parents = [into.get(lk.upstream, -1) for lk in net.links]
     grid = open_dem(dem if dem is not None else list(sc.terrain.dem))
     try:
-        profiles = [build_profile(sc, grid, Route(line=lk.line, source=f"{label} ({names[k]})"))
+        profiles = [build_profile(sc, grid, Route(line=lk.line, source=f"{label} ({names[k]})",
+                                                  gps_elevation_m=lk.gps_elevation_m))
                     for k, lk in enumerate(net.links)]
     finally:
         if dem is None:

@@ -40,6 +40,9 @@ class NetworkLink:
     name: str = ""
     turned: bool = False             # drawn against the flow and turned round
     offset_m: float = 0.0            # where it starts along the line it was drawn as [m]
+    #: GPS heights at the link's vertices [m] (NaN where a tee split the line), when the
+    #: file carried them (GPX); None otherwise
+    gps_elevation_m: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -68,7 +71,11 @@ class RouteNetwork:
 
 
 def read_lines(path: str | Path) -> list[tuple[LineString, str]]:
-    """Every line of a GeoJSON, KML or GPX file, in lon/lat, with its name if any."""
+    """Every line of a GeoJSON, KML or GPX file, in lon/lat, with its name if any.
+
+    A GPX track or route whose every point has an elevation comes back as a 3-D line
+    (lon, lat, GPS height [m]), so that its heights can be compared with the DEM.
+    """
     import pyogrio
 
     p = Path(path)
@@ -80,24 +87,72 @@ def read_lines(path: str | Path) -> list[tuple[LineString, str]]:
     try:
         layers = [str(name) for name, _ in pyogrio.list_layers(p)]
         for layer in layers:
-            frame = pyogrio.read_dataframe(p, layer=layer)
+            frame = pyogrio.read_dataframe(p, layer=layer, fid_as_index=True)
             if frame.crs is not None and not frame.crs.equals(WGS84):
                 frame = frame.to_crs(WGS84)
             names = frame["name"] if "name" in frame else [""] * len(frame)
-            for geom, name in zip(frame.geometry, names):
+            heights = _gpx_heights(p, layer) if p.suffix.lower() == ".gpx" else {}
+            for fid, geom, name in zip(frame.index, frame.geometry, names):
                 if geom is None or geom.is_empty:
                     continue
                 parts = geom.geoms if geom.geom_type == "MultiLineString" else [geom]
-                for part in parts:
-                    if part.geom_type == "LineString":
-                        out.append((LineString(np.asarray(part.coords)[:, :2]),
-                                    str(name) if name is not None else ""))
+                for seg, part in enumerate(parts):
+                    if part.geom_type != "LineString":
+                        continue
+                    xy = np.asarray(part.coords)[:, :2]
+                    z = heights.get((int(fid), seg))
+                    if z is not None and z.size == xy.shape[0]:
+                        xy = np.column_stack([xy, z])
+                    out.append((LineString(xy), str(name) if name is not None else ""))
     except InputFileError:
         raise
     except Exception as exc:
         raise InputFileError(f"{p}: cannot read this file ({exc})") from None
     if not out:
         raise InputFileError(f"{p}: no lines in the file")
+    return out
+
+
+def _split(g: LineString, at: float) -> tuple[LineString, LineString]:
+    """A metric line cut in two ``at`` metres along it.  A 3-D line keeps the heights of
+    its own vertices; the cut vertex gets none (NaN): no GPS height was taken there."""
+    flat = LineString(np.asarray(g.coords)[:, :2]) if g.has_z else g
+    a, b = substring(flat, 0, at), substring(flat, at, flat.length)
+    if not g.has_z:
+        return a, b
+    c = np.asarray(g.coords)
+    along = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(c[:, :2], axis=0).T))])
+
+    def with_z(part, start, cut):
+        xy = np.asarray(part.coords)
+        pos = start + np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
+        z = np.interp(pos, along, c[:, 2])
+        z[cut] = np.nan
+        return LineString(np.column_stack([xy, z]))
+
+    return with_z(a, 0.0, -1), with_z(b, at, 0)
+
+
+def _gpx_heights(p: Path, layer: str) -> dict[tuple[int, int], np.ndarray]:
+    """GPS heights of a GPX layer's lines: (track or route, segment) -> heights [m], for
+    the lines whose every point has one."""
+    import pyogrio
+
+    if layer not in ("tracks", "routes"):
+        return {}
+    points, fid = ("track_points", "track_fid") if layer == "tracks" else ("route_points", "route_fid")
+    try:
+        pts = pyogrio.read_dataframe(p, layer=points, read_geometry=False)
+    except Exception:                      # no point layer: no heights, the lines still count
+        return {}
+    if "ele" not in pts or fid not in pts:
+        return {}
+    seg = pts["track_seg_id"] if "track_seg_id" in pts else np.zeros(len(pts), dtype=int)
+    out = {}
+    for key, ele in pts.groupby([pts[fid].astype(int), np.asarray(seg, dtype=int)])["ele"]:
+        z = np.asarray(ele, dtype=float)
+        if np.all(np.isfinite(z)):
+            out[(int(key[0]), int(key[1]))] = z
     return out
 
 
@@ -135,8 +190,9 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
     back = Transformer.from_crs(work, WGS84, always_xy=True)
 
     def to_m(g):
-        xy = np.asarray(g.coords)[:, :2]
-        return LineString(np.column_stack(fwd.transform(xy[:, 0], xy[:, 1])))
+        c = np.asarray(g.coords)
+        xy = np.column_stack(fwd.transform(c[:, 0], c[:, 1]))
+        return LineString(np.column_stack([xy, c[:, 2]]) if g.has_z else xy)
 
     metric = [(to_m(g), name, 0.0) for g, name in pairs]
     notes = []
@@ -149,7 +205,7 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
             for e in ends:
                 d_along = g.project(e)
                 if g.distance(e) <= snap_tolerance_m and snap_tolerance_m < d_along < g.length - snap_tolerance_m:
-                    a, b = substring(g, 0, d_along), substring(g, d_along, g.length)
+                    a, b = _split(g, d_along)
                     metric[k:k + 1] = [(a, name, off), (b, name, off + d_along)]
                     notes.append(f"line {name or k + 1!s} split where a branch joins it")
                     changed = True
@@ -227,7 +283,8 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
             lon, lat = back.transform(xy[:, 0], xy[:, 1])
             links.append(NetworkLink(id=len(links), line=LineString(np.column_stack([lon, lat])),
                                      upstream=u, downstream=v, name=name, turned=turned,
-                                     offset_m=off))
+                                     offset_m=off,
+                                     gps_elevation_m=xy[:, 2].copy() if g.has_z else None))
     lon, lat = back.transform(node_xy[:, 0], node_xy[:, 1])
     return RouteNetwork(nodes=np.column_stack([lon, lat]), links=tuple(links), root=root,
                         notes=tuple(notes))

@@ -206,3 +206,89 @@ def test_a_limit_met_alone_but_not_together_is_explained_in_metres(demo_folder):
     msg = str(info.value)
     assert "the least the limits would have to give" in msg, msg
     assert "at chainage" in msg and "HiGHS" not in msg and "Status" not in msg
+
+
+def _tree_gpx(demo_folder, offset_m: float):
+    """The demo network written as GPX tracks whose heights are the DEM's (read here
+    with rasterio, nearest cell) plus ``offset_m``: GPX 1.1 is an open schema
+    (topografix.com/GPX/1/1)."""
+    import json
+
+    import rasterio
+    from pyproj import Transformer
+
+    lines = json.loads((demo_folder / "network.geojson").read_text())["features"]
+    tracks = []
+    with rasterio.open(demo_folder / "dem.tif") as dem:
+        to_dem = Transformer.from_crs("EPSG:4326", dem.crs, always_xy=True)
+        for f in lines:
+            xy = f["geometry"]["coordinates"]
+            z = [float(v[0]) + offset_m
+                 for v in dem.sample([to_dem.transform(*c[:2]) for c in xy])]
+            pts = "".join(f'<trkpt lat="{c[1]:.8f}" lon="{c[0]:.8f}"><ele>{h:.3f}</ele></trkpt>'
+                          for c, h in zip(xy, z))
+            tracks.append(f"<trk><name>{f['properties']['name']}</name><trkseg>{pts}</trkseg></trk>")
+    path = demo_folder / "network_gps.gpx"
+    path.write_text('<?xml version="1.0"?><gpx version="1.1" creator="test" '
+                    'xmlns="http://www.topografix.com/GPX/1/1">' + "".join(tracks) + "</gpx>")
+    return path
+
+
+def test_gps_heights_are_compared_with_the_dem_on_a_tree(demo_folder):
+    """Issue 11: the GPS comparison a single line gets works on every link of a tree."""
+    from dataclasses import replace
+
+    from planner import api
+
+    sc = api.load_scenario(demo_folder / "scenario_network.toml")
+    gpx = _tree_gpx(demo_folder, 3.0)
+    plan = plan_network(replace(sc, route=replace(sc.route, file=gpx)))
+    offsets = []
+    for lk in plan.links:
+        off = lk.profile.gps_offset_m
+        assert off is not None and off.size >= 1, lk.name
+        offsets.append(off)
+    # the test reads the nearest cell, the profile samples between cells: on this relief
+    # the two differ by up to about a metre at a vertex, and not on average
+    off = np.concatenate(offsets)
+    assert abs(float(np.median(off)) - 3.0) < 0.3 and np.all(np.abs(off - 3.0) < 1.5), off
+    # a tee splits a drawn line: no height is invented at the split vertex
+    assert any(lk.gps_elevation_m is not None and np.isnan(lk.gps_elevation_m).any()
+               for lk in plan.network.links)
+
+
+def test_survey_pins_hold_the_ground_on_a_tree(demo_folder):
+    """Issue 11: survey points (link and chainage, or location) pin a tree's links."""
+    from dataclasses import replace
+
+    from planner import api
+    from planner.scenario import SurveyPoint
+
+    sc = api.load_scenario(demo_folder / "scenario_network.toml")
+    base = plan_network(sc)
+    branch = next(lk for lk in base.links if lk.name.startswith("Tamsel school"))
+    g300 = float(np.interp(300.0, branch.profile.chainage_m, branch.profile.ground_m))
+    pins = (SurveyPoint("school BM", g300 + 2.0, chainage_m=300.0, link=branch.name),)
+    plan = plan_network(replace(sc, survey_points=pins))
+    pinned = next(lk for lk in plan.links if lk.name == branch.name)
+    (name, ch, offset), = pinned.profile.pins
+    assert name == "school BM" and ch == pytest.approx(300.0) and offset == pytest.approx(2.0, abs=1e-6)
+    assert float(np.interp(300.0, pinned.profile.chainage_m, pinned.profile.ground_m)) \
+        == pytest.approx(g300 + 2.0, abs=1e-6)
+    # the DEM-error estimate of the path through the pin knows it
+    u = dict(plan.uncertainty)[plan.path_name(pinned.id)]
+    assert u.pinned == ("school BM",)
+
+
+def test_no_tank_zones_on_a_network_are_refused_not_ignored(demo_folder):
+    """A zone by chainage alone cannot say which link it is on: the plan stops and says so
+    (it used to be dropped silently)."""
+    from dataclasses import replace
+
+    from planner import api
+    from planner.errors import InputError
+
+    sc = api.load_scenario(demo_folder / "scenario_network.toml")
+    sc = replace(sc, design=replace(sc.design, no_tank_zones=((100.0, 300.0),)))
+    with pytest.raises(InputError, match=r"design.no_tank_zones\[1\]"):
+        plan_network(sc)
