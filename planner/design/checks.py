@@ -227,7 +227,7 @@ def check_yield(total_flow: float, yield_flow: float | None,
     if daily_volume is not None and daily_volume <= yield_flow * 86400.0:
         from .demand import TYPICAL_DAY, balancing_storage
 
-        storage = balancing_storage(TYPICAL_DAY, daily_volume, yield_flow)
+        storage = balancing_storage(np.asarray(TYPICAL_DAY), daily_volume, yield_flow)
         return [Finding(
             "warning", "storage-needed",
             f"peak design flow {total_flow / LPS:.2f} L/s is above the source yield "
@@ -270,7 +270,8 @@ def check_surge(stretches_, criteria) -> list[Finding]:
         slower = ""
         if room > 0:
             t_safe = float(safe_closure_time(s.reach_length_m, s.max_velocity_mps, room))
-            slower = f"close valves over at least {max(t_safe, 2 * s.reach_length_m / s.wave_speed_mps):.0f} s, "
+            t_min = max(t_safe, 2 * s.reach_length_m / s.wave_speed_mps)
+            slower = f"close valves over at least {t_min:.0f} s, "
         out.append(Finding(
             "error", "surge",
             f"{s.option.label} from chainage {s.chainage_m:,.0f} to {s.chainage_end_m:,.0f} m: "

@@ -15,7 +15,7 @@ file; writing results is the report package's job.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from numpy.typing import NDArray
@@ -54,11 +54,12 @@ class _System:
     cand: list                      # per link: (velocity, velocity head, friction slope)
     nu: float
     rho: float
-    sites: list = None              # per link: TankSite list
-    surfaces: list = None           # per link: FreeSurface list (first: source or junction)
-    allowed: list = None            # per link: (segments, options) admissible
-    seg_static: list = None         # per link: static head of each segment [m]
-    surge_len: list = None          # per link: the wave's path length of each reach [m]
+    sites: list = field(default_factory=list)       # per link: TankSite list
+    surfaces: list = field(default_factory=list)    # per link: FreeSurface list (first:
+    #                                                 the source or the junction)
+    allowed: list = field(default_factory=list)     # per link: (segments, options) admissible
+    seg_static: list = field(default_factory=list)  # per link: static head of each segment [m]
+    surge_len: list = field(default_factory=list)   # per link: the wave's path of each reach [m]
 
     def on(self, k: int) -> str:
         """The prefix naming link ``k`` in a message (none on a single line)."""
@@ -137,7 +138,7 @@ def _tanks_and_candidates(s: _System) -> None:
     Where surge leaves a segment no class (or only pipes so wide that the water barely
     moves), the tanks' static limit is lowered by the shortfall and they are placed again.
     """
-    sc, lay, cr = s.sc, s.lay, s.sc.criteria
+    sc, lay = s.sc, s.lay
     d = sc.design
     auto = d is not None and d.auto_tanks
     limit, reason = static_limit(sc, s.options, s.rating_head)
@@ -147,7 +148,7 @@ def _tanks_and_candidates(s: _System) -> None:
         for k, prof in enumerate(lay.profiles):
             lvl = (lay.top_level_m if lay.parents[k] < 0
                    else s.surfaces[lay.parents[k]][-1].static_level)
-            if auto:
+            if auto and d is not None:
                 sites = place_tanks(
                     prof.chainage_m, prof.ground_m, prof.pipe_m, source_level=lvl,
                     limit_head=limit - margin, water_depth=d.tank_water_depth_m,
@@ -175,8 +176,11 @@ def _tanks_and_candidates(s: _System) -> None:
 
 
 def _admissible(s: _System, k: int, prof):
-    """Candidates admissible in each segment of link ``k``, the segments' static head,
-    and how far short of a class the segments that surge leaves without one are [m]."""
+    """Candidates admissible in each segment of link ``k``, and why others are not.
+
+    Returns the (segments, candidates) mask, the segments' static head [m], and how far
+    short of a class [m] the segments are that surge leaves without one.
+    """
     cr = s.sc.criteria
     surf = s.surfaces[k]
     seg_r = np.searchsorted([f.index for f in surf], np.arange(prof.n - 1), side="right") - 1
@@ -217,8 +221,11 @@ def _requirements(s: _System):
 
 
 def _precheck(s: _System, required, line_req) -> None:
-    """Explain, in words and numbers, why no design can exist: no pipe fits a segment,
-    or even the largest pipe each segment admits cannot deliver."""
+    """Explain, in words and numbers, why no design can exist.
+
+    Either no pipe fits a segment, or even the largest pipe each segment admits cannot
+    deliver the pressure or fill a tank.
+    """
     lay, cr = s.lay, s.sc.criteria
     problems = []
     for k, prof in enumerate(lay.profiles):
@@ -249,7 +256,8 @@ def _size(s: _System, required, line_req):
     only where the built system still falls short (the chord and the mean velocity head
     of a sub-stretch split between two sizes) is the programme tightened there.
     """
-    sc, lay, cr, d = s.sc, s.lay, s.sc.criteria, s.sc.design
+    lay, cr, d = s.lay, s.sc.criteria, s.sc.design
+    assert d is not None, "sizing needs [design]"
     profiles = lay.profiles
     reaches = [list(zip([f.index for f in surf], [f.index for f in surf][1:] + [prof.n - 1]))
                for surf, prof in zip(s.surfaces, profiles)]
@@ -296,11 +304,12 @@ def _where_point(s: _System, offsets, i: int) -> str:
 
 def _results(s: _System, built, energies, remaps, req_r, sizing, single, converged) -> NetworkPlan:
     """Per-link results, checks and the plan (design or check mode)."""
-    sc, lay, cr = s.sc, s.lay, s.sc.criteria
+    sc, lay = s.sc, s.lay
     total = float(sum(o.flow_m3s for o in sc.outlets))
     volumes = [o.daily_volume_m3 for o in sc.outlets]
+    known = [v for v in volumes if v is not None]
     findings = check_yield(total, sc.source.yield_m3s,
-                           sum(volumes) if all(v is not None for v in volumes) else None)
+                           sum(known) if len(known) == len(volumes) else None)
     links, auto_no = [], 0
     for k in range(len(lay.profiles)):
         link, auto_no = _link_result(s, k, built[k], energies[k], remaps[k], req_r[k], auto_no)
@@ -313,7 +322,7 @@ def _results(s: _System, built, energies, remaps, req_r, sizing, single, converg
     findings += _system_findings(s, links, sizing, single, converged)
     findings.sort(key=finding_order)
     offsets = np.concatenate([[0], np.cumsum([p.n for p in lay.profiles])])
-    binding = ()
+    binding: tuple[tuple[int, float], ...] = ()
     if sizing is not None:
         binding = tuple((int(k), float(lay.profiles[k].chainage_m[i - offsets[k]]))
                         for i in sizing.binding
@@ -395,13 +404,14 @@ def _link_findings(s: _System, k: int, link: LinkPlan, seg_rating: NDArray) -> l
         out += check_tank(t.name, t.chainage_m, t.arrival_hgl_m,
                           t.water_level_m + cr.tank_inlet_head_m)
     out += check_surge(link.stretches, cr)
-    for f in link.features:
-        if f.kind == "air_valve" and energy.pressure_head[f.index] < 0:
+    for feat in link.features:
+        if feat.kind == "air_valve" and energy.pressure_head[feat.index] < 0:
             out.append(Finding(
                 "error", "air-valve-vacuum",
-                f"the air valve at chainage {f.chainage_m:,.0f} m sits where the pressure is "
-                f"{energy.pressure_head[f.index]:.1f} m: it would let air in and break the flow",
-                "lower the line there, or use a larger pipe upstream", f.chainage_m, f.chainage_m))
+                f"the air valve at chainage {feat.chainage_m:,.0f} m sits where the pressure is "
+                f"{energy.pressure_head[feat.index]:.1f} m: it would let air in and break the flow",
+                "lower the line there, or use a larger pipe upstream", feat.chainage_m,
+                feat.chainage_m))
     return out
 
 

@@ -24,7 +24,7 @@ def no_pipe_fits(chainage: NDArray, allowed: NDArray, seg_static: NDArray, ratin
     segment [m]; ``rating_max`` the highest derated class as head [m].
     """
     out = []
-    for a, b in runs(~allowed.any(axis=1)):
+    for a, b in runs(np.asarray(~allowed.any(axis=1))):
         worst = float(seg_static[a:b + 1].max())
         if worst > rating_max:
             out.append(f"{_where(chainage, a, b + 1)} the static head reaches {worst:.0f} m, "

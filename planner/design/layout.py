@@ -43,10 +43,12 @@ class Layout:
 
     @property
     def children(self) -> list[list[int]]:
+        """The links hanging from each link's end."""
         return [[c for c, p in enumerate(self.parents) if p == k] for k in range(len(self.parents))]
 
     @property
     def root(self) -> int:
+        """The link leaving the source."""
         return self.parents.index(-1)
 
 
@@ -62,6 +64,7 @@ def build_profile(scenario: Scenario, dem=None, route=None) -> Profile:
     if isinstance(route, Survey):
         return profile_from_survey(route, sc.criteria.cover_m,
                                    vertical_datum=sc.terrain.vertical_datum if sc.terrain else None)
+    assert sc.terrain is not None, "a route file without levels needs [terrain]"
     return sample_profile(route, dem if dem is not None else list(sc.terrain.dem),
                           spacing_m=sc.route.spacing_m, cover_m=sc.criteria.cover_m,
                           max_void_m=sc.terrain.max_void_m,
@@ -140,9 +143,12 @@ def line_layout(sc: Scenario, profile: Profile | None = None, dem=None) -> Layou
 
 
 def tree_layout(sc: Scenario, lines=None, dem=None) -> Layout:
-    """The scenario's network (or ``lines``, lon/lat ``(LineString, name)`` pairs drawn in
-    the editor) joined into a tree from the source, each link sampled on the DEM
-    (``dem``, an open :class:`~planner.geo.terrain.Dem`, is reused when given)."""
+    """The scenario's network joined into a tree from the source, each link on the DEM.
+
+    ``lines`` (lon/lat ``(LineString, name)`` pairs drawn in the editor) stand in for
+    the network file; ``dem`` (an open :class:`~planner.geo.terrain.Dem`) is reused
+    when given.
+    """
     label = "the drawing" if lines is not None else sc.route.file.name
     try:
         net = build_tree(read_lines(sc.route.file) if lines is None else lines,
@@ -159,7 +165,10 @@ def tree_layout(sc: Scenario, lines=None, dem=None) -> Layout:
                 names[k] = f"{nm}, part {i}"
     into = {lk.downstream: k for k, lk in enumerate(net.links)}
     parents = [into.get(lk.upstream, -1) for lk in net.links]
-    grid = open_dem(dem if dem is not None else list(sc.terrain.dem))
+    if dem is None:
+        assert sc.terrain is not None, "a network needs [terrain]"
+        dem_paths = list(sc.terrain.dem)
+    grid = open_dem(dem if dem is not None else dem_paths)
     try:
         profiles = [build_profile(sc, grid, Route(line=lk.line, source=f"{label} ({names[k]})",
                                                   gps_elevation_m=lk.gps_elevation_m))
@@ -179,8 +188,8 @@ def _lay(sc: Scenario, profiles, parents, names, net) -> Layout:
     root = parents.index(-1)
     g0 = float(profiles[root].ground_m[0])
     src = sc.source
-    top = src.top_level_m if src.top_level_m is not None else g0 + src.top_above_ground_m
-    low = src.low_level_m if src.low_level_m is not None else g0 + src.low_above_ground_m
+    top = src.top_level_m if src.top_level_m is not None else g0 + (src.top_above_ground_m or 0.0)
+    low = src.low_level_m if src.low_level_m is not None else g0 + (src.low_above_ground_m or 0.0)
     if low > top:
         raise InputError(f"{sc.path}: source low water level {low:.2f} m is above the top "
                          f"water level {top:.2f} m")

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import warnings
 from dataclasses import replace
+from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import NDArray
@@ -29,11 +30,17 @@ from .explain import explain_infeasible
 from .results import Stretch
 from .sizing import SizingInfeasible, SizingProblem, SizingResult, solve_sizing, solve_whole_pieces
 
+if TYPE_CHECKING:                        # type names only: the scenario is read elsewhere
+    from ..scenario import Scenario
+
 #: Rounds of "solve, build, recheck every point, tighten where short" at most.
 RECHECK_ROUNDS = 12
 
+
 def given_pipe(sc: Scenario) -> PipeOption:
+    """The scenario's one pipe (``[pipe]``, check mode) as a pipe option, SI units."""
     p = sc.pipe
+    assert p is not None, "check mode needs [pipe]"
     nan = float("nan")
     od = p.outside_diameter_m if p.outside_diameter_m is not None else nan
     return PipeOption(material=p.material, label=p.label or p.material, outside_diameter=od,
@@ -59,6 +66,7 @@ def candidate_data(options, flows, rho, nu, method):
 
 
 def wave_speeds(options, rho):
+    """Pressure-wave speed of each option [m/s] (NaN where its wall is not known)."""
     out = []
     for o in options:
         if np.isfinite(o.elastic_modulus) and np.isfinite(o.wall) and np.isfinite(o.outside_diameter):
@@ -70,8 +78,11 @@ def wave_speeds(options, rho):
 
 
 def pipe_options(sc: Scenario, rho: float) -> tuple[list[PipeOption], NDArray[np.float64]]:
-    """The pipes that may be used (catalogues, or the scenario's one pipe) and their
-    ratings derated for the wall temperature, as head [m]."""
+    """The pipes that may be used, and their ratings derated for temperature, as head [m].
+
+    The catalogues of ``[design]``, or the scenario's one pipe; the rating is derated
+    for the wall temperature (:func:`~planner.catalogue.standards.temperature_factor`).
+    """
     cr = sc.criteria
     if sc.design is not None:
         d = sc.design
@@ -107,7 +118,7 @@ def surge_pool(ok: NDArray, velocity: NDArray, velocity_min: float) -> NDArray:
     settles and air stays; common practice), else every candidate within the limits.
     """
     band = ok & (velocity >= velocity_min)
-    return np.where(band.any(axis=1)[:, None], band, ok)
+    return np.where(band.any(axis=1, keepdims=True), band, ok)
 
 
 #: Shortfall of the built line [m] above which the programme is tightened there.
@@ -152,8 +163,11 @@ def cheapest_per_size(allowed: NDArray, options: list[PipeOption]) -> NDArray:
 
 
 def split_points(prof, reaches, placed, point_k, spacing):
-    """Profile points where the pipe may change size: reach ends, outlets, fittings, and
-    points about ``spacing`` metres apart (every point when spacing is None)."""
+    """Profile points where the pipe may change size.
+
+    Reach ends, outlets, fittings, and points about ``spacing`` metres apart (every
+    point when spacing is None or 0).
+    """
     n, ch = prof.n, prof.chainage_m
     if not spacing:
         return np.arange(n)
@@ -301,8 +315,11 @@ def tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allow
 
 def tree_exact(profiles, built, parents, surfaces, placed, children, total_in, options,
                 required, line_req, top, low, nu, cr, point_k):
-    """Energy lines of the built tree, exactly, and the pressure required at every point
-    (at a size change, the line's requirement interpolated; outlets at their points)."""
+    """Energy lines of the built tree, exactly, and the pressure required at every point.
+
+    At a size change the line's requirement is interpolated; an outlet's minimum holds
+    at the outlet only.
+    """
     datas, remaps, reqs = [], [], []
     for k, (prof, (refined, seg_opt)) in enumerate(zip(profiles, built)):
         ch, rch = prof.chainage_m, refined.chainage_m
@@ -317,8 +334,10 @@ def tree_exact(profiles, built, parents, surfaces, placed, children, total_in, o
         pipe = PipeHydraulics(
             inside_diameter=np.array([options[j].inside_diameter for j in seg_opt]),
             method=cr.friction,
-            roughness=np.array([options[j].roughness for j in seg_opt]) if cr.friction == "colebrook" else None,
-            c_factor=np.array([options[j].c_factor for j in seg_opt]) if cr.friction == "hazen-williams" else None)
+            roughness=np.array([options[j].roughness for j in seg_opt])
+            if cr.friction == "colebrook" else None,
+            c_factor=np.array([options[j].c_factor for j in seg_opt])
+            if cr.friction == "hazen-williams" else None)
         k_r = np.zeros(refined.n)
         k_r[remap] = point_k[k]
         datas.append(LinkData(refined.slope_length_m, refined.pipe_m, flows, pipe,

@@ -53,6 +53,7 @@ class OutletResult:
 
     @property
     def ok(self) -> bool:
+        """Whether the residual pressure meets the outlet's minimum."""
         return self.pressure_head_m >= self.min_pressure_m - 1e-6
 
 
@@ -120,10 +121,12 @@ class Plan:
 
     @property
     def errors(self) -> list[Finding]:
+        """The findings of severity "error"."""
         return [f for f in self.findings if f.severity == "error"]
 
     @property
     def pipe_cost(self) -> float:
+        """Cost of the pipe laid, at the catalogues' unit prices."""
         return float(sum(s.cost for s in self.stretches))
 
     @property
@@ -165,7 +168,7 @@ class NetworkPlan:
     """Everything computed for a branched system."""
 
     scenario: Scenario
-    network: RouteNetwork
+    network: RouteNetwork | None                 # None for a single line
     links: tuple[LinkPlan, ...]
     source_top_level_m: float
     source_low_level_m: float
@@ -184,14 +187,17 @@ class NetworkPlan:
 
     @property
     def errors(self) -> list[Finding]:
+        """The findings of severity "error"."""
         return [f for f in self.findings if f.severity == "error"]
 
     @property
     def pipe_cost(self) -> float:
+        """Cost of the pipe laid, at the catalogues' unit prices."""
         return float(sum(s.cost for lk in self.links for s in lk.stretches))
 
     @property
     def outlets(self) -> list[OutletResult]:
+        """Every outlet of the tree, link by link."""
         return [o for lk in self.links for o in lk.outlets]
 
     def path(self, link: int) -> list[int]:
@@ -213,8 +219,11 @@ class NetworkPlan:
 
     @property
     def outlet_risk(self) -> dict[str, tuple[float, float]]:
-        """Outlet name -> (chance below its minimum, 95 % fall [m]), from the first path
-        through it (see :func:`_with_uncertainty`)."""
+        """Outlet name -> (chance below its minimum, 95 % fall [m]).
+
+        From the first path through the outlet (see
+        :func:`planner.design.engine.design_layout`).
+        """
         risk: dict[str, tuple[float, float]] = {}
         for _, u in self.uncertainty:
             for name, p, fall in u.outlets:
@@ -271,8 +280,8 @@ def _joined(parts: list[LinkPlan]):
     keys_p = ("chainage_m", "slope_length_m", "x", "y", "lon", "lat", "ground_m", "pipe_m", "filled")
     keys_e = ("flow", "velocity", "static_head", "energy", "hgl", "pressure_head",
               "static_pressure_head", "friction_loss", "reynolds", "arrival_hgl")
-    cols_p = {k: [] for k in keys_p}
-    cols_e = {k: [] for k in keys_e}
+    cols_p: dict[str, list] = {k: [] for k in keys_p}
+    cols_e: dict[str, list] = {k: [] for k in keys_e}
     rating, required, inserted, vidx = [], [], [], []
     stretches, features, tanks, outlets, reaches = [], [], [], [], []
     pins, gps, gps_ch = [], [], []
@@ -298,7 +307,7 @@ def _joined(parts: list[LinkPlan]):
         reaches += [replace(r, start_index=r.start_index + shift, end_index=r.end_index + shift)
                     for r in e.reaches]
         pins += [(name, c + dch, off) for name, c, off in p.pins]
-        if p.gps_offset_m is not None:
+        if p.gps_offset_m is not None and p.gps_chainage_m is not None:
             gps.append(p.gps_offset_m)
             gps_ch.append(p.gps_chainage_m + dch)
         di += p.n - cut

@@ -252,7 +252,7 @@ def _build(p: SizingProblem) -> dict:
         cols = np.arange(first[k], last[k])
         return list(cols), list(coef * hvc[cols])
 
-    end_var = {}
+    end_var: dict[int, int] = {}
     for ri, ks in enumerate(pieces_of):
         h, parent = heads[ri], p.linked(ri)
         tank_end = bool(np.isfinite(p.arrival_min_head[ri]))
@@ -293,7 +293,7 @@ def _build(p: SizingProblem) -> dict:
 
 
 def _pressure_rows(ub: _Rows, p: SizingProblem, point: int, head: int, hv_terms) -> None:
-    """h - hv >= min_head (and <= max_head where there is one) at a split point."""
+    """H - hv >= min_head (and <= max_head where there is one) at a split point."""
     c, v = hv_terms
     ub.add([head, *c], [-1.0, *v], -float(p.min_head[point]), point, MIN)
     if p.max_head is not None and np.isfinite(p.max_head[point]):
@@ -348,22 +348,23 @@ def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray 
                             status="optimal", gap=0.0, lower_bound=cost, split_pipe_cost=cost,
                             binding=binding, seconds=time.perf_counter() - t0,
                             variables=m["nvar"], constraints=ncons)
-    if whole == "reach":
-        return _one_size_per_reach(p, m, time_limit, mip_rel_gap, t0)
-    return _whole_choices(p, m, whole, pieces, time_limit, mip_rel_gap, t0, ncons)
+    return _whole_milp(p, m, whole, pieces, time_limit, mip_rel_gap, t0)
 
 
-def _one_size_per_reach(p, m, time_limit, mip_rel_gap, t0) -> SizingResult:
-    """One size per reach: the same programme with the lengths written as ``x = T y``.
+def _whole_milp(p, m, whole, pieces, time_limit, mip_rel_gap, t0) -> SizingResult:
+    """Whole choices: the same programme with the lengths written as ``x = T z``.
 
-    With a reach's size fixed every piece takes that size's one admissible candidate
-    for its whole length, so ``x[k, j] = L_k y[r, g(j)]``; substituting leaves binaries
-    and heads only (the compact form, far quicker on large trees than linking the
-    lengths to binaries), and the rules stay those of :func:`_build`.
+    With a unit's size fixed (a reach for ``whole="reach"``, a piece for ``"piece"``),
+    every piece of it takes that size's one admissible candidate for its whole length,
+    so ``x[k, j] = L_k y[u, g(j)]`` with binaries ``y``; the lengths of pieces in no
+    unit stay free (``x[k, j]`` itself).  Substituting leaves binaries, free lengths
+    and heads only: the compact form, far quicker on large systems than linking the
+    lengths to binaries by ``x <= L y``, with the same LP relaxation; the rules stay
+    those of :func:`_build`.
     """
     groups = np.unique(p.group)
     gpos = np.searchsorted(groups, p.group)
-    unit, n_units = _units(p, "reach", None)
+    unit, n_units = _units(p, whole, pieces)
     piece_idx, opt_idx, nx, nv = m["piece_idx"], m["opt_idx"], m["nx"], m["nvar"]
     ny = n_units * groups.size
     # of several candidates of one size in a piece (classes), the cheapest is taken: a
@@ -374,17 +375,22 @@ def _one_size_per_reach(p, m, time_limit, mip_rel_gap, t0) -> SizingResult:
     first[1:] = np.any(key[:, 1:] != key[:, :-1], axis=0)
     cheapest = np.zeros(nx, dtype=bool)
     cheapest[order[first]] = True
-    live = (unit[piece_idx] >= 0) & cheapest
-    T = coo_matrix((p.piece_length[piece_idx[live]],
-                    (np.flatnonzero(live), unit[piece_idx[live]] * groups.size + gpos[opt_idx[live]])),
-                   shape=(nx, ny)).tocsr()
+    tied = unit[piece_idx] >= 0
+    live = tied & cheapest
+    free = np.flatnonzero(~tied)
+    nf = free.size
+    rows = np.concatenate([np.flatnonzero(live), free])
+    cols = np.concatenate([unit[piece_idx[live]] * groups.size + gpos[opt_idx[live]],
+                           ny + np.arange(nf)])
+    vals = np.concatenate([p.piece_length[piece_idx[live]], np.ones(nf)])
+    T = coo_matrix((vals, (rows, cols)), shape=(nx, ny + nf)).tocsr()
     nh = nv - nx
 
     def substitute(A):
         return hstack([A[:, :nx] @ T, A[:, nx:]]).tocsr()
 
     one = coo_matrix((np.ones(ny), (np.repeat(np.arange(n_units), groups.size), np.arange(ny))),
-                     shape=(n_units, ny + nh)).tocsr()
+                     shape=(n_units, ny + nf + nh)).tocsr()
     cons = [LinearConstraint(substitute(m["A_eq"]), m["b_eq"], m["b_eq"]),
             LinearConstraint(one, 1.0, 1.0)]
     if m["A_ub"] is not None:
@@ -392,25 +398,30 @@ def _one_size_per_reach(p, m, time_limit, mip_rel_gap, t0) -> SizingResult:
     yub = _open_sizes(p, unit, n_units, gpos, groups.size)
     c = np.concatenate([T.T @ m["c"][:nx], np.zeros(nh)])
     res = milp(c, constraints=cons,
-               bounds=Bounds(np.concatenate([np.zeros(ny), np.full(nh, -np.inf)]),
-                             np.concatenate([yub.ravel(), np.full(nh, np.inf)])),
-               integrality=np.concatenate([np.ones(ny), np.zeros(nh)]),
+               bounds=Bounds(np.concatenate([np.zeros(ny + nf), np.full(nh, -np.inf)]),
+                             np.concatenate([yub.ravel(), np.full(nf + nh, np.inf)])),
+               integrality=np.concatenate([np.ones(ny), np.zeros(nf + nh)]),
                options=dict(time_limit=time_limit, mip_rel_gap=mip_rel_gap))
+    what = "one pipe size per reach" if whole == "reach" else "one pipe per sub-stretch"
     if res.x is None:
         if res.status == 1:
-            raise DesignError(f"no design with one pipe size per reach was found within the time "
-                              f"limit of {time_limit:g} s: allow size changes "
-                              "(design.one_size_per_reach = false)")
-        raise _infeasible(p, m, "a design with one pipe size per reach")
-    xv = T @ np.round(res.x[:ny])
+            raise DesignError(
+                f"no design with {what} was found within the time limit of {time_limit:g} s: "
+                + ("allow size changes (design.one_size_per_reach = false)" if whole == "reach"
+                   else "allow size changes (design.one_size_per_reach = false) or a coarser "
+                   "design.split_spacing_m"))
+        raise _infeasible(p, m, f"a design with {what}")
+    z = res.x[:ny + nf].copy()
+    z[:ny] = np.round(z[:ny])
+    xv = T @ z
     bound = getattr(res, "mip_dual_bound", None)
     cost = float(res.fun)
-    return SizingResult(lengths=_lengths(p, m, xv), cost=cost, method="MILP, one pipe size per reach",
+    return SizingResult(lengths=_lengths(p, m, xv), cost=cost, method=f"MILP, {what}",
                         status="optimal" if res.status == 0 else "time limit (best found)",
                         gap=float(getattr(res, "mip_gap", 0.0) or 0.0),
                         lower_bound=float(bound if bound is not None else cost),
                         split_pipe_cost=float("nan"), seconds=time.perf_counter() - t0,
-                        variables=ny + nh, constraints=sum(k.A.shape[0] for k in cons))
+                        variables=ny + nf + nh, constraints=sum(k.A.shape[0] for k in cons))
 
 
 def _units(p: SizingProblem, whole: str, pieces) -> tuple[NDArray, int]:
@@ -438,53 +449,6 @@ def _open_sizes(p: SizingProblem, unit: NDArray, n_units: int, gpos: NDArray,
         ok = p.allowed[:, gpos == gi].any(axis=1)
         yub[np.unique(unit[(unit >= 0) & ~ok]), gi] = 0.0
     return yub
-
-
-def _whole_choices(p, m, whole, pieces, time_limit, mip_rel_gap, t0, ncons) -> SizingResult:
-    """The MILP: binaries y[u, g]; x[k, j] <= L_k y[u(k), g(j)]; sum_g y[u, g] = 1."""
-    groups = np.unique(p.group)
-    gpos = np.searchsorted(groups, p.group)
-    unit, n_units = _units(p, whole, pieces)
-    ny = n_units * groups.size
-    nv = m["nvar"]
-    piece_idx, opt_idx = m["piece_idx"], m["opt_idx"]
-    tied = np.flatnonzero(unit[piece_idx] >= 0)
-    yidx = unit[piece_idx[tied]] * groups.size + gpos[opt_idx[tied]]
-    nt = tied.size
-    link = coo_matrix((np.concatenate([np.ones(nt), -p.piece_length[piece_idx[tied]]]),
-                       (np.tile(np.arange(nt), 2), np.concatenate([tied, nv + yidx]))),
-                      shape=(nt, nv + ny))
-    one = coo_matrix((np.ones(ny), (np.repeat(np.arange(n_units), groups.size), nv + np.arange(ny))),
-                     shape=(n_units, nv + ny))
-    cons = [LinearConstraint(hstack([m["A_eq"], csr_matrix((m["A_eq"].shape[0], ny))]).tocsr(),
-                             m["b_eq"], m["b_eq"]),
-            LinearConstraint(link.tocsr(), -np.inf, 0.0), LinearConstraint(one.tocsr(), 1.0, 1.0)]
-    if m["A_ub"] is not None:
-        cons.append(LinearConstraint(hstack([m["A_ub"], csr_matrix((m["A_ub"].shape[0], ny))]).tocsr(),
-                                     -np.inf, m["b_ub"]))
-    yub = _open_sizes(p, unit, n_units, gpos, groups.size)
-    bounds = _bounds(m)
-    res = milp(np.concatenate([m["c"], np.zeros(ny)]), constraints=cons,
-               bounds=Bounds(np.concatenate([bounds[:, 0], np.zeros(ny)]),
-                             np.concatenate([bounds[:, 1], yub.ravel()])),
-               integrality=np.concatenate([np.zeros(nv), np.ones(ny)]),
-               options=dict(time_limit=time_limit, mip_rel_gap=mip_rel_gap))
-    what = "one pipe size per reach" if whole == "reach" else "one pipe per sub-stretch"
-    if res.x is None:
-        if res.status == 1:
-            raise DesignError(f"no design with {what} was found within the time limit of "
-                              f"{time_limit:g} s: allow size changes (design.one_size_per_reach "
-                              "= false) or a coarser design.split_spacing_m")
-        raise _infeasible(p, m, f"a design with {what}")
-    bound = getattr(res, "mip_dual_bound", None)
-    cost = float(res.fun)
-    return SizingResult(lengths=_lengths(p, m, res.x), cost=cost,
-                        method=f"MILP, {what}",
-                        status="optimal" if res.status == 0 else "time limit (best found)",
-                        gap=float(getattr(res, "mip_gap", 0.0) or 0.0),
-                        lower_bound=float(bound if bound is not None else cost),
-                        split_pipe_cost=float("nan"), seconds=time.perf_counter() - t0,
-                        variables=nv + ny, constraints=ncons + nt + n_units)
 
 
 def _infeasible(p: SizingProblem, m: dict, what: str) -> SizingInfeasible:
@@ -576,7 +540,7 @@ def best_single_size(p: SizingProblem) -> tuple[float, int | None]:
     In each piece the group's cheapest admissible candidate is used (the class may
     change with the static head).  Returns (cost, group), or (inf, None).
     """
-    best = (float("inf"), None)
+    best: tuple[float, int | None] = (float("inf"), None)
     used = np.concatenate(_reach_pieces(p))
     for g in np.unique(p.group):
         cols = np.flatnonzero(p.group == g)

@@ -14,6 +14,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from collections.abc import Sequence
+
 import numpy as np
 from numpy.typing import NDArray
 
@@ -43,7 +45,7 @@ class TankSite:
 
 
 def place_tanks(chainage: NDArray, ground: NDArray, pipe: NDArray, *, source_level: float,
-                limit_head: float, water_depth: float, fixed: list[tuple[int, float]] = (),
+                limit_head: float, water_depth: float, fixed: Sequence[tuple[int, float]] = (),
                 forbidden: NDArray | None = None, limit_reason: str = "") -> list[TankSite]:
     """Tanks needed along a line, fixed ones included, in order of chainage.
 

@@ -84,6 +84,7 @@ def error_model(product: str | None = None, sigma_m: float | None = None,
     if sigma_m is not None:
         source = f"given in the scenario (sigma {sigma_m:g} m)"
         sigma = sigma_m
+    assert sigma is not None                 # a known product, or sigma_m given
     return ErrorModel(sigma_m=float(sigma), product=name,
                       correlation_m=float(correlation_m or DEFAULT_CORRELATION_M),
                       source=source)
