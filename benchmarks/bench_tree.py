@@ -84,10 +84,11 @@ def make_problem(seed: int = 0, links: int = 500, seg: int = 10):
 
 def child(kind: str) -> dict:
     from planner.design.sizing import solve_sizing
+    from planner.design.whole import solve_whole
 
     p, nopt, nsize = make_problem()
     t0 = time.perf_counter()
-    res = solve_sizing(p) if kind == "lp" else solve_sizing(p, whole="reach", time_limit=10.0,
+    res = solve_sizing(p) if kind == "lp" else solve_whole(p, "reach", time_limit=10.0,
                                                            mip_rel_gap=1e-4)
     return {"seconds": time.perf_counter() - t0, "cost": res.cost, "gap": res.gap,
             "bound": res.lower_bound, "status": res.status, "options": nopt, "sizes": nsize,

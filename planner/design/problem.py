@@ -28,7 +28,8 @@ from ..hydraulics.network import LinkData, tree_energy
 from ..units import G
 from .explain import explain_infeasible
 from .results import Stretch
-from .sizing import SizingInfeasible, SizingProblem, SizingResult, solve_sizing, solve_whole_pieces
+from .sizing import SizingInfeasible, SizingProblem, SizingResult, solve_sizing
+from .whole import solve_whole, solve_whole_pieces
 
 if TYPE_CHECKING:                        # type names only: the scenario is read elsewhere
     from ..scenario import Scenario
@@ -258,7 +259,7 @@ def solve_design(problem: SizingProblem, final: str, where) -> SizingResult:
         lp = solve_sizing(problem)
         if final == "lp":
             return lp
-        return replace(solve_sizing(problem, whole="reach"), split_pipe_cost=lp.cost)
+        return replace(solve_whole(problem, "reach"), split_pipe_cost=lp.cost)
     except SizingInfeasible as exc:
         raise explain_infeasible(exc, where) from None
 

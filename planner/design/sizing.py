@@ -34,9 +34,9 @@ Math. Prog. Comp. 10, 2018).  Candidates that break a rule independent of the si
 (class below the static head or surge, velocity above the limit) are removed before
 solving, so the class is not a decision of its own.
 
-Where a rule needs a whole choice an integer variable is used (both MILPs, HiGHS
-branch and bound): ``whole="reach"`` gives one diameter per reach between free
-surfaces, ``whole="piece"`` one candidate per piece.
+Where a rule needs a whole choice (one diameter per reach between free surfaces, or
+one candidate per piece) the same programme gets integer variables: see
+:mod:`planner.design.whole`.
 
 When the programme has no solution, :class:`SizingInfeasible` carries the limits that
 cannot be met and by how many metres, from the same programme with a slack on every
@@ -51,17 +51,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy.optimize import Bounds, LinearConstraint, linprog, milp
-from scipy.sparse import coo_matrix, csr_matrix, hstack, identity
+from scipy.optimize import linprog
+from scipy.sparse import csr_matrix, hstack, identity
 from scipy.sparse.linalg import spsolve
 
 from ..errors import DesignError
-
-#: Relative gap at which the MILPs stop [-]: 0.1 %, far inside the uncertainty of pipe
-#: prices (a choice of ours); the gap reached is always reported.
-MIP_GAP = 1e-3
-#: Time limit of one MILP [s]: a safety stop, reported when it is hit.
-MIP_TIME_LIMIT = 60.0
 
 #: What a row of limits is about (kept with each row for explanations).
 MIN, MAX, ARRIVAL = 0, 1, 2
@@ -312,143 +306,27 @@ def _lengths(p: SizingProblem, m: dict, xv: NDArray) -> NDArray:
     return x
 
 
-def solve_sizing(p: SizingProblem, *, whole: str | None = None, pieces: NDArray | None = None,
-                 time_limit: float = MIP_TIME_LIMIT, mip_rel_gap: float = MIP_GAP) -> SizingResult:
-    """Solve the sizing problem; raise :class:`SizingInfeasible` if it has no solution.
+def solve_sizing(p: SizingProblem) -> SizingResult:
+    """The split-pipe optimum (the LP); raise :class:`SizingInfeasible` if there is none.
 
-    Parameters
-    ----------
-    p : SizingProblem
-    whole : {None, "reach", "piece"}
-        None: free splits (the LP).  ``"reach"``: one diameter per reach between free
-        surfaces; ``"piece"``: one candidate per piece (both MILPs).
-    pieces : ndarray of bool, optional
-        With ``whole="piece"``: only these pieces must be of one candidate.
-    time_limit : float
-        HiGHS time limit [s] (MILP only).
-    mip_rel_gap : float
-        Relative gap at which the MILP stops [-].
+    The MILPs for whole choices are in :mod:`planner.design.whole`.
     """
-    if whole not in (None, "reach", "piece"):
-        raise ValueError(f"whole must be None, 'reach' or 'piece', got {whole!r}")
     t0 = time.perf_counter()
     m = _build(p)
     ncons = m["A_eq"].shape[0] + (m["A_ub"].shape[0] if m["A_ub"] is not None else 0)
-    if whole is None:
-        res = linprog(m["c"], A_ub=m["A_ub"], b_ub=m["b_ub"] if m["A_ub"] is not None else None,
-                      A_eq=m["A_eq"], b_eq=m["b_eq"], bounds=_bounds(m), method="highs")
-        if res.status != 0:
-            raise _infeasible(p, m, "the sizing programme")
-        binding = ()
-        if m["A_ub"] is not None and getattr(res, "ineqlin", None) is not None:
-            hit = (np.abs(res.ineqlin.marginals) > 1e-9) & (m["row_kind"] != MAX)
-            binding = tuple(sorted(set(m["row_point"][hit].tolist())))
-        cost = float(res.fun)
-        return SizingResult(lengths=_lengths(p, m, res.x), cost=cost, method="split-pipe LP",
-                            status="optimal", gap=0.0, lower_bound=cost, split_pipe_cost=cost,
-                            binding=binding, seconds=time.perf_counter() - t0,
-                            variables=m["nvar"], constraints=ncons)
-    return _whole_milp(p, m, whole, pieces, time_limit, mip_rel_gap, t0)
-
-
-def _whole_milp(p, m, whole, pieces, time_limit, mip_rel_gap, t0) -> SizingResult:
-    """Whole choices: the same programme with the lengths written as ``x = T z``.
-
-    With a unit's size fixed (a reach for ``whole="reach"``, a piece for ``"piece"``),
-    every piece of it takes that size's one admissible candidate for its whole length,
-    so ``x[k, j] = L_k y[u, g(j)]`` with binaries ``y``; the lengths of pieces in no
-    unit stay free (``x[k, j]`` itself).  Substituting leaves binaries, free lengths
-    and heads only: the compact form, far quicker on large systems than linking the
-    lengths to binaries by ``x <= L y``, with the same LP relaxation; the rules stay
-    those of :func:`_build`.
-    """
-    groups = np.unique(p.group)
-    gpos = np.searchsorted(groups, p.group)
-    unit, n_units = _units(p, whole, pieces)
-    piece_idx, opt_idx, nx, nv = m["piece_idx"], m["opt_idx"], m["nx"], m["nvar"]
-    ny = n_units * groups.size
-    # of several candidates of one size in a piece (classes), the cheapest is taken: a
-    # higher class of the same size costs more and has a smaller bore
-    order = np.lexsort((p.cost[opt_idx], gpos[opt_idx], piece_idx))
-    key = np.stack([piece_idx[order], gpos[opt_idx[order]]])
-    first = np.ones(nx, dtype=bool)
-    first[1:] = np.any(key[:, 1:] != key[:, :-1], axis=0)
-    cheapest = np.zeros(nx, dtype=bool)
-    cheapest[order[first]] = True
-    tied = unit[piece_idx] >= 0
-    live = tied & cheapest
-    free = np.flatnonzero(~tied)
-    nf = free.size
-    rows = np.concatenate([np.flatnonzero(live), free])
-    cols = np.concatenate([unit[piece_idx[live]] * groups.size + gpos[opt_idx[live]],
-                           ny + np.arange(nf)])
-    vals = np.concatenate([p.piece_length[piece_idx[live]], np.ones(nf)])
-    T = coo_matrix((vals, (rows, cols)), shape=(nx, ny + nf)).tocsr()
-    nh = nv - nx
-
-    def substitute(A):
-        return hstack([A[:, :nx] @ T, A[:, nx:]]).tocsr()
-
-    one = coo_matrix((np.ones(ny), (np.repeat(np.arange(n_units), groups.size), np.arange(ny))),
-                     shape=(n_units, ny + nf + nh)).tocsr()
-    cons = [LinearConstraint(substitute(m["A_eq"]), m["b_eq"], m["b_eq"]),
-            LinearConstraint(one, 1.0, 1.0)]
-    if m["A_ub"] is not None:
-        cons.append(LinearConstraint(substitute(m["A_ub"]), -np.inf, m["b_ub"]))
-    yub = _open_sizes(p, unit, n_units, gpos, groups.size)
-    c = np.concatenate([T.T @ m["c"][:nx], np.zeros(nh)])
-    res = milp(c, constraints=cons,
-               bounds=Bounds(np.concatenate([np.zeros(ny + nf), np.full(nh, -np.inf)]),
-                             np.concatenate([yub.ravel(), np.full(nf + nh, np.inf)])),
-               integrality=np.concatenate([np.ones(ny), np.zeros(nf + nh)]),
-               options=dict(time_limit=time_limit, mip_rel_gap=mip_rel_gap))
-    what = "one pipe size per reach" if whole == "reach" else "one pipe per sub-stretch"
-    if res.x is None:
-        if res.status == 1:
-            raise DesignError(
-                f"no design with {what} was found within the time limit of {time_limit:g} s: "
-                + ("allow size changes (design.one_size_per_reach = false)" if whole == "reach"
-                   else "allow size changes (design.one_size_per_reach = false) or a coarser "
-                   "design.split_spacing_m"))
-        raise _infeasible(p, m, f"a design with {what}")
-    z = res.x[:ny + nf].copy()
-    z[:ny] = np.round(z[:ny])
-    xv = T @ z
-    bound = getattr(res, "mip_dual_bound", None)
+    res = linprog(m["c"], A_ub=m["A_ub"], b_ub=m["b_ub"] if m["A_ub"] is not None else None,
+                  A_eq=m["A_eq"], b_eq=m["b_eq"], bounds=_bounds(m), method="highs")
+    if res.status != 0:
+        raise _infeasible(p, m, "the sizing programme")
+    binding: tuple[int, ...] = ()
+    if m["A_ub"] is not None and getattr(res, "ineqlin", None) is not None:
+        hit = (np.abs(res.ineqlin.marginals) > 1e-9) & (m["row_kind"] != MAX)
+        binding = tuple(sorted(set(m["row_point"][hit].tolist())))
     cost = float(res.fun)
-    return SizingResult(lengths=_lengths(p, m, xv), cost=cost, method=f"MILP, {what}",
-                        status="optimal" if res.status == 0 else "time limit (best found)",
-                        gap=float(getattr(res, "mip_gap", 0.0) or 0.0),
-                        lower_bound=float(bound if bound is not None else cost),
-                        split_pipe_cost=float("nan"), seconds=time.perf_counter() - t0,
-                        variables=ny + nf + nh, constraints=sum(k.A.shape[0] for k in cons))
-
-
-def _units(p: SizingProblem, whole: str, pieces) -> tuple[NDArray, int]:
-    """The unit (reach, or chosen piece) each piece belongs to, -1 for none; and their number."""
-    K = p.allowed.shape[0]
-    unit = np.full(K, -1, dtype=np.int64)
-    if whole == "reach":
-        for ri, ks in enumerate(_reach_pieces(p)):
-            unit[ks] = ri
-        return unit, len(p.reaches)
-    chosen = np.zeros(K, dtype=bool)
-    for ks in _reach_pieces(p):
-        chosen[ks] = True
-    if pieces is not None:
-        chosen &= np.asarray(pieces, dtype=bool)
-    unit[chosen] = np.arange(int(chosen.sum()))
-    return unit, int(chosen.sum())
-
-
-def _open_sizes(p: SizingProblem, unit: NDArray, n_units: int, gpos: NDArray,
-                ngroups: int) -> NDArray:
-    """1 where a size is open to a unit: only where every piece of the unit admits it."""
-    yub = np.ones((n_units, ngroups))
-    for gi in range(ngroups):
-        ok = p.allowed[:, gpos == gi].any(axis=1)
-        yub[np.unique(unit[(unit >= 0) & ~ok]), gi] = 0.0
-    return yub
+    return SizingResult(lengths=_lengths(p, m, res.x), cost=cost, method="split-pipe LP",
+                        status="optimal", gap=0.0, lower_bound=cost, split_pipe_cost=cost,
+                        binding=binding, seconds=time.perf_counter() - t0,
+                        variables=m["nvar"], constraints=ncons)
 
 
 def _infeasible(p: SizingProblem, m: dict, what: str) -> SizingInfeasible:
@@ -469,40 +347,6 @@ def _infeasible(p: SizingProblem, m: dict, what: str) -> SizingInfeasible:
         for i in np.flatnonzero(slack > 1e-4):
             found.append((int(m["row_point"][i]), int(m["row_kind"][i]), float(slack[i])))
     return SizingInfeasible(f"{what} has no solution", found)
-
-
-def solve_whole_pieces(p: SizingProblem, *, rounds: int = 2,
-                       time_limit: float = MIP_TIME_LIMIT) -> SizingResult:
-    """The split-pipe optimum, then one candidate per piece where the LP split one.
-
-    Pieces the LP made of several pipes get a binary choice (a MILP over those only),
-    repeated while the answer splits others.  Forcing only some pieces whole is a
-    relaxation of forcing all, so once no piece is split the answer is the optimum of
-    "one pipe per piece" within the MILP's stated gap.  After ``rounds`` rounds every
-    piece is made whole at once (one larger MILP), and the notes say so.
-    """
-    lp = solve_sizing(p)
-    res, mask = lp, np.zeros(p.allowed.shape[0], dtype=bool)
-    notes = []
-    bound = lp.cost
-    for r in range(rounds + 1):
-        split = (res.lengths > 1e-6 * p.piece_length[:, None]).sum(axis=1) > 1
-        if not split.any():
-            break
-        mask = np.ones_like(mask) if r == rounds else mask | split
-        if r == rounds:
-            notes.append(f"after {rounds} rounds over the split sub-stretches, every sub-stretch "
-                         "was made one pipe in one programme")
-        res = solve_sizing(p, whole="piece", pieces=mask, time_limit=time_limit)
-        bound = max(bound, res.lower_bound)
-    gap = (res.cost - bound) / res.cost if res.cost > 0 else 0.0
-    return SizingResult(lengths=res.lengths, cost=res.cost,
-                        method="split-pipe LP, then one pipe per sub-stretch (MILP)"
-                        if mask.any() else "split-pipe LP", status=res.status,
-                        gap=max(gap, 0.0), lower_bound=bound, split_pipe_cost=lp.cost,
-                        binding=lp.binding,
-                        seconds=lp.seconds + (0.0 if res is lp else res.seconds),
-                        variables=res.variables, constraints=res.constraints, notes=tuple(notes))
 
 
 def design_heads(p: SizingProblem, lengths: NDArray) -> tuple[NDArray, dict]:

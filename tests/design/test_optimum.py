@@ -17,7 +17,8 @@ import pytest
 from planner.catalogue.pipes import load_options
 from planner.design.explain import explain_infeasible
 from planner.design.problem import tree_problem
-from planner.design.sizing import SizingInfeasible, solve_sizing, solve_whole_pieces
+from planner.design.sizing import SizingInfeasible, solve_sizing
+from planner.design.whole import solve_whole, solve_whole_pieces
 from planner.errors import DesignError
 from planner.hydraulics import friction as fr
 from planner.hydraulics.line import FreeSurface, PipeHydraulics, line_energy
@@ -129,9 +130,9 @@ def test_whole_choice_milp_equals_enumeration(seed, tank, whole):
     best = best_by_enumeration(line, opts, per_reach=whole == "reach")
     if not np.isfinite(best):
         with pytest.raises(DesignError):
-            solve_sizing(p, whole=whole, mip_rel_gap=0.0)
+            solve_whole(p, whole, mip_rel_gap=0.0)
         return
-    res = solve_sizing(p, whole=whole, mip_rel_gap=0.0)
+    res = solve_whole(p, whole, mip_rel_gap=0.0)
     cost, ok = physics(line, opts, chosen(p, res))
     assert ok, "the MILP's design fails a limit when built and computed point by point"
     assert cost == pytest.approx(best, rel=1e-4)
@@ -293,9 +294,9 @@ def test_tree_whole_pieces_equal_enumeration(seed):
             best = min(best, cost)
     if not np.isfinite(best):
         with pytest.raises(DesignError):
-            solve_sizing(p, whole="piece", mip_rel_gap=0.0)
+            solve_whole(p, "piece", mip_rel_gap=0.0)
         return
-    res = solve_sizing(p, whole="piece", mip_rel_gap=0.0)
+    res = solve_whole(p, "piece", mip_rel_gap=0.0)
     choice = [int(np.argmax(res.lengths[r])) for rr in rows for r in rr]
     cost, ok = tree_physics(tree, opts, choice)
     assert ok and cost == pytest.approx(best, rel=1e-4)

@@ -5,8 +5,8 @@ import itertools
 import numpy as np
 import pytest
 
-from planner.design.sizing import (SizingProblem, best_single_size, solve_sizing,
-                                   solve_whole_pieces)
+from planner.design.sizing import SizingProblem, best_single_size, solve_sizing
+from planner.design.whole import solve_whole, solve_whole_pieces
 from planner.errors import DesignError
 
 
@@ -49,9 +49,9 @@ def against_enumeration(p, exhaustive):
     """The one-pipe-per-piece MILP equals enumeration; the LP bounds it. Returns (lp, milp)."""
     if not np.isfinite(exhaustive):
         with pytest.raises(DesignError):
-            solve_sizing(p, whole="piece")
+            solve_whole(p, "piece")
         return None, None
-    milp = solve_sizing(p, whole="piece", mip_rel_gap=0.0)
+    milp = solve_whole(p, "piece", mip_rel_gap=0.0)
     assert milp.cost == pytest.approx(exhaustive, rel=1e-7)
     lp = solve_sizing(p)
     assert lp.cost <= milp.cost + 1e-7                  # the split-pipe optimum is a bound
