@@ -63,7 +63,7 @@ def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
         "profile.csv": write_profile_csv(plan_.profile, out / "profile.csv"),
     }
     # the drawing, the sheets and the map are independent: drawn side by side on spare cores
-    jobs = [("png", plan_, out, "profile", {}), ("sheets", plan_, out, "profile", {})]
+    jobs: list[tuple] = [("png", plan_, out, "profile", {}), ("sheets", plan_, out, "profile", {})]
     if np.all(np.isfinite(plan_.profile.lat)):
         jobs.append(("map", plan_, out, "", {"terrain": _terrain_window(plan_)}))
     for part in _in_parallel(_drawing, jobs):
@@ -121,8 +121,10 @@ def write_any(plan_, out_dir: str | Path) -> dict[str, Path]:
 
 
 def _drawing(kind: str, plans, out: Path, stem: str, map_kw: dict) -> dict[str, Path]:
-    """One deliverable that needs nothing from the others: a profile PNG named ``stem``,
-    the permit sheets named ``stem``, or the map."""
+    """One deliverable that needs nothing from the others.
+
+    A profile PNG named ``stem``, the permit sheets named ``stem``, or the map.
+    """
     if kind == "png":
         return {f"{stem}.png": write_profile_png(plans, out / f"{stem}.png")}
     if kind == "sheets":
@@ -152,8 +154,11 @@ def _in_parallel(fn, jobs: list[tuple]) -> list:
 
 
 def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
-    """Write plan.json, a profile drawing per path from the source to each branch end,
-    and map.html for a branched system, each file atomically."""
+    """Write plan.json, the profile drawings and map.html for a branched system.
+
+    There is one profile drawing per path from the source to each branch end; each file
+    is written atomically.
+    """
     import re
 
     from .report.plan_json import write_network_json
@@ -162,7 +167,8 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
     out.mkdir(parents=True, exist_ok=True)
     link_plans = [as_line_plan(plan_, [k]) for k in range(len(plan_.links))]
     written = {}
-    drawings, jobs = [], []
+    drawings: list[dict] = []
+    jobs: list[tuple] = []
     for k in plan_.ends:
         path_plan = as_line_plan(plan_, plan_.path(k))
         last = path_plan.outlets[-1].name if path_plan.outlets else plan_.links[k].name

@@ -65,7 +65,8 @@ def main(verbose):
 @click.argument("route", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--dem", "dems", multiple=True, required=True, type=click.Path(path_type=Path),
               help="DEM file (GeoTIFF, VRT, ...); repeat for several tiles.")
-@click.option("--spacing", type=float, default=None, help="Largest point spacing [m]; default the DEM cell size.")
+@click.option("--spacing", type=float, default=None,
+              help="Largest point spacing [m]; default the DEM cell size.")
 @click.option("--cover", type=float, default=DEFAULT_COVER_M, show_default=True,
               help="Cover over the pipe [m].")
 @click.option("--max-void", type=float, default=DEFAULT_MAX_VOID_M, show_default=True,

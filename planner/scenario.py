@@ -24,6 +24,8 @@ from .units import BAR, LPS, MM
 
 @dataclass(frozen=True)
 class Project:
+    """The project's name, reference, engineer and notes, as printed on the deliverables."""
+
     name: str
     reference: str = ""
     engineer: str = ""
@@ -32,6 +34,8 @@ class Project:
 
 @dataclass(frozen=True)
 class Terrain:
+    """The DEM file(s), their vertical datum and the longest void bridged along the line [m]."""
+
     dem: tuple[Path, ...]
     vertical_datum: str = "as the DEM (not stated)"
     max_void_m: float = DEFAULT_MAX_VOID_M
@@ -39,6 +43,8 @@ class Terrain:
 
 @dataclass(frozen=True)
 class RouteSpec:
+    """The route file, its largest point spacing [m], CRS, and for a network the join tolerance [m]."""
+
     file: Path
     spacing_m: float | None = None
     crs: str | None = None
@@ -61,6 +67,8 @@ class Source:
 
 @dataclass(frozen=True)
 class Pipe:
+    """One given pipe ([pipe]): diameters and roughness [m], rating and elastic modulus [Pa]."""
+
     material: str
     label: str
     inside_diameter_m: float
@@ -89,6 +97,8 @@ class Outlet:
 
 @dataclass(frozen=True)
 class Tank:
+    """A given break-pressure tank: its chainage [m] and water level above the ground [m]."""
+
     name: str
     chainage_m: float
     water_above_ground_m: float = 1.0
@@ -97,6 +107,8 @@ class Tank:
 
 @dataclass(frozen=True)
 class Fitting:
+    """A fitting: its chainage [m] and local loss coefficient k [-] (times the velocity head)."""
+
     name: str
     chainage_m: float
     k: float
@@ -186,6 +198,8 @@ class SurveyPoint:
 
 @dataclass(frozen=True)
 class Scenario:
+    """Everything the scenario file states about one gravity line, checked and in SI units."""
+
     path: Path
     project: Project
     terrain: Terrain | None
@@ -244,7 +258,7 @@ SCHEMA: dict[str, dict[str, tuple[type | tuple, bool]]] = {
                "no_tank_zones": (list, False), "split_spacing_m": (_NUM, False),
                "whole_pieces": (bool, False)},
 }
-TABLE_ARRAYS = {
+TABLE_ARRAYS: dict[str, dict[str, tuple[type | tuple, bool]]] = {
     "outlets": {"name": (str, True), "flow_lps": (_NUM, False), "demand": (dict, False),
                 "link": (str, False), "max_pressure_m": (_NUM, False),
                 "min_pressure_m": (_NUM, False),
@@ -271,17 +285,19 @@ LARGE_FLOW_LPS = 200.0
 SMALL_DIAMETER_MM = 10.0
 
 
-def _large_flow(key: str, value) -> None:
+def _large_flow(key: str, value, stacklevel: int = 3) -> None:
     if isinstance(value, _NUM) and not isinstance(value, bool) and value > LARGE_FLOW_LPS:
         warnings.warn(f"{key} = {value:,.0f} L/s is very large for a gravity line (more than "
                       f"{LARGE_FLOW_LPS:g} L/s); check the units: flow_lps is in litres per "
-                      f"second (1 m3/h = 0.278 L/s, 1 m3/s = 1,000 L/s)", UnitWarning, stacklevel=3)
+                      f"second (1 m3/h = 0.278 L/s, 1 m3/s = 1,000 L/s)", UnitWarning,
+                      stacklevel=stacklevel)
 
 
-def _looks_like_metres(key: str, value) -> None:
+def _looks_like_metres(key: str, value, stacklevel: int = 3) -> None:
     if isinstance(value, _NUM) and not isinstance(value, bool) and 0 < value < SMALL_DIAMETER_MM:
         warnings.warn(f"{key} = {value:g} mm is smaller than any catalogue pipe; was it given in "
-                      f"metres? ({value:g} m = {value * 1000:g} mm)", UnitWarning, stacklevel=3)
+                      f"metres? ({value:g} m = {value * 1000:g} mm)", UnitWarning,
+                      stacklevel=stacklevel)
 
 
 class _Problems(list):
@@ -360,6 +376,37 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
     """Validate parsed TOML data and build a :class:`Scenario` (see :func:`load_scenario`)."""
     problems = _Problems()
     base = path.parent
+    sec, arrays = _sections(data, problems)
+    terrain = _terrain(sec["terrain"], base, problems)
+    route = _route(sec["route"], base, terrain, problems)
+    source = _source(sec["source"], "source" in data, problems)
+    criteria = _criteria(sec["criteria"], problems)
+    pipe = _pipe(sec["pipe"], "pipe" in data, criteria, problems)
+    design = _design(sec["design"], problems) if "design" in data else None
+    _pipe_or_design("pipe" in data, "design" in data, problems)
+    outlets = _outlets(arrays["outlets"], "outlets" in data, problems)
+    tanks = _tanks(arrays["break_pressure_tanks"], route.network, problems)
+    fittings = _fittings(arrays["fittings"], problems)
+    if route.network:
+        _network_links(arrays, problems)
+    drawing = _drawing(sec["drawing"], problems)
+    uncertainty = _uncertainty(sec["uncertainty"], problems)
+    survey_points = _survey_points(arrays["survey_points"], problems)
+    if problems:
+        listing = "\n  - ".join(problems)
+        raise InputError(f"{path}: {len(problems)} problem(s) in the scenario:\n  - {listing}")
+    p = sec["project"]
+    return Scenario(
+        path=path, project=Project(name=p["name"], reference=p.get("reference", ""),
+                                   engineer=p.get("engineer", ""), notes=p.get("notes", "")),
+        terrain=terrain, route=route, source=source, pipe=pipe, outlets=tuple(outlets),
+        tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria, design=design,
+        drawing=drawing, uncertainty=uncertainty, survey_points=tuple(survey_points))
+
+
+def _sections(data: dict[str, Any], problems: _Problems
+              ) -> tuple[dict[str, dict[str, Any]], dict[str, list[dict[str, Any]]]]:
+    """The checked tables of every section and array of tables (empty where not given)."""
     known = set(SCHEMA) | set(TABLE_ARRAYS)
     for key in data:
         if key not in known:
@@ -384,20 +431,27 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
             items = []
         arrays[name] = [_check_table(item, schema, f"{name}[{i + 1}]", problems)
                         for i, item in enumerate(items)]
+    return sec, arrays
 
-    # -- terrain and route
-    terrain = None
-    t = sec["terrain"]
-    if "dem" in t:
-        dems = t["dem"] if isinstance(t["dem"], list) else [t["dem"]]
-        if not dems or not all(isinstance(d, str) for d in dems):
-            problems.add("terrain.dem", "expected a file name or a list of file names")
-            dems = []
-        terrain = Terrain(dem=tuple(base / d for d in dems),
-                          vertical_datum=t.get("vertical_datum", "as the DEM (not stated)"),
-                          max_void_m=float(t.get("max_void_m", DEFAULT_MAX_VOID_M)))
-        _positive(problems, "terrain.max_void_m", t.get("max_void_m"), allow_zero=True)
-    r = sec["route"]
+
+def _terrain(t: dict[str, Any], base: Path, problems: _Problems) -> Terrain | None:
+    """The [terrain] section, DEM paths relative to ``base``; None without a DEM."""
+    if "dem" not in t:
+        return None
+    dems = t["dem"] if isinstance(t["dem"], list) else [t["dem"]]
+    if not dems or not all(isinstance(d, str) for d in dems):
+        problems.add("terrain.dem", "expected a file name or a list of file names")
+        dems = []
+    terrain = Terrain(dem=tuple(base / d for d in dems),
+                      vertical_datum=t.get("vertical_datum", "as the DEM (not stated)"),
+                      max_void_m=float(t.get("max_void_m", DEFAULT_MAX_VOID_M)))
+    _positive(problems, "terrain.max_void_m", t.get("max_void_m"), allow_zero=True)
+    return terrain
+
+
+def _route(r: dict[str, Any], base: Path, terrain: Terrain | None,
+           problems: _Problems) -> RouteSpec:
+    """The [route] section, its file relative to ``base``; a non-CSV route needs a DEM."""
     route = RouteSpec(file=base / r.get("file", ""), spacing_m=r.get("spacing_m"), crs=r.get("crs"),
                       network=bool(r.get("network", False)),
                       join_tolerance_m=float(r.get("join_tolerance_m", 5.0)))
@@ -406,12 +460,14 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
     if "file" in r and not route.file.suffix.lower() == ".csv" and terrain is None:
         problems.add("terrain.dem", f"needed for the route {r['file']!r}: only a CSV survey "
                      "carries its own elevations")
+    return route
 
-    # -- source
-    s = sec["source"]
+
+def _source(s: dict[str, Any], given: bool, problems: _Problems) -> Source:
+    """The [source] section (``given``: whether the file has one); yield in m3/s."""
     for level in ("top", "low"):
         absolute, relative = f"{level}_water_level_m", f"{level}_water_above_ground_m"
-        if (absolute in s) == (relative in s) and "source" in data:
+        if (absolute in s) == (relative in s) and given:
             problems.add(f"source.{absolute}", f"give exactly one of {absolute} (elevation) "
                          f"or {relative} (height above the ground at the route start)")
     if "top_water_level_m" in s and "low_water_level_m" in s and \
@@ -430,11 +486,14 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
     if "location" in s and (len(s["location"]) != 2 or not all(
             isinstance(v, _NUM) and not isinstance(v, bool) for v in s["location"])):
         problems.add("source.location", f"expected [longitude, latitude], got {s['location']!r}")
+    return source
 
-    # -- criteria
-    c = sec["criteria"]
-    criteria = Criteria(**{k: (float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
-                               else v) for k, v in c.items()})
+
+def _criteria(c: dict[str, Any], problems: _Problems) -> Criteria:
+    """The [criteria] section, numbers as floats, each checked against its range."""
+    values: dict[str, Any] = {k: (float(v) if isinstance(v, (int, float)) and not isinstance(v, bool)
+                                  else v) for k, v in c.items()}
+    criteria = Criteria(**values)
     if criteria.friction not in FRICTION_METHODS:
         problems.add("criteria.friction", f"unknown method {criteria.friction!r}; choose one of "
                      f"{', '.join(FRICTION_METHODS)}")
@@ -452,9 +511,11 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                      f"{criteria.pipe_temperature_c:g}")
     if criteria.velocity_min_mps >= criteria.velocity_max_mps:
         problems.add("criteria.velocity_min_mps", "must be below velocity_max_mps")
+    return criteria
 
-    # -- pipe
-    pp = sec["pipe"]
+
+def _pipe(pp: dict[str, Any], given: bool, criteria: Criteria, problems: _Problems) -> Pipe | None:
+    """The [pipe] section in SI units (``given``: whether the file has one), else None."""
     _positive(problems, "pipe.inside_diameter_mm", pp.get("inside_diameter_mm"))
     _positive(problems, "pipe.rating_bar", pp.get("rating_bar"))
     _positive(problems, "pipe.roughness_mm", pp.get("roughness_mm"), allow_zero=True)
@@ -464,7 +525,7 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
     if "outside_diameter_mm" in pp and "inside_diameter_mm" in pp and \
             pp["outside_diameter_mm"] <= pp["inside_diameter_mm"]:
         problems.add("pipe.outside_diameter_mm", "must be larger than inside_diameter_mm")
-    if "pipe" in data:
+    if given:
         if criteria.friction == "colebrook" and "roughness_mm" not in pp:
             problems.add("pipe.roughness_mm", "needed for criteria.friction = 'colebrook' "
                          "(e.g. 0.007 for PE or PVC, 0.15 for galvanised steel)")
@@ -472,29 +533,34 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
             problems.add("pipe.hazen_williams_c", "needed for criteria.friction = "
                          "'hazen-williams' (e.g. 150 for PE or PVC)")
     for k in ("inside_diameter_mm", "outside_diameter_mm"):
-        _looks_like_metres(f"pipe.{k}", pp.get(k))
-    pipe = None
-    if "pipe" in data:
-        pipe = Pipe(material=pp.get("material", ""), label=pp.get("label", ""),
-                    inside_diameter_m=pp.get("inside_diameter_mm", 0.0) * MM,
-                    rating_pa=pp.get("rating_bar", 0.0) * BAR,
-                    roughness_m=pp["roughness_mm"] * MM if "roughness_mm" in pp else None,
-                    c_factor=pp.get("hazen_williams_c"),
-                    outside_diameter_m=pp["outside_diameter_mm"] * MM
-                    if "outside_diameter_mm" in pp else None,
-                    elastic_modulus_pa=pp["elastic_modulus_gpa"] * 1e9
-                    if "elastic_modulus_gpa" in pp else None)
-    design = _design(sec["design"], problems) if "design" in data else None
-    if "pipe" in data and "design" in data:
+        _looks_like_metres(f"pipe.{k}", pp.get(k), stacklevel=4)
+    if not given:
+        return None
+    return Pipe(material=pp.get("material", ""), label=pp.get("label", ""),
+                inside_diameter_m=pp.get("inside_diameter_mm", 0.0) * MM,
+                rating_pa=pp.get("rating_bar", 0.0) * BAR,
+                roughness_m=pp["roughness_mm"] * MM if "roughness_mm" in pp else None,
+                c_factor=pp.get("hazen_williams_c"),
+                outside_diameter_m=pp["outside_diameter_mm"] * MM
+                if "outside_diameter_mm" in pp else None,
+                elastic_modulus_pa=pp["elastic_modulus_gpa"] * 1e9
+                if "elastic_modulus_gpa" in pp else None)
+
+
+def _pipe_or_design(pipe: bool, design: bool, problems: _Problems) -> None:
+    """Check that the file has exactly one of [pipe] and [design]."""
+    if pipe and design:
         problems.add("design", "give either [pipe] (check one given pipe) or [design] (let the "
                      "tool choose sizes and classes), not both")
-    if "pipe" not in data and "design" not in data:
+    if not pipe and not design:
         problems.add("design", "missing: add [design] (catalogues to choose from) or [pipe] "
                      "(one given pipe)")
 
-    # -- outlets, tanks, fittings
+
+def _outlets(items: list[dict[str, Any]], given: bool, problems: _Problems) -> list[Outlet]:
+    """The [[outlets]] tables (``given``: whether the file has any), flows in m3/s."""
     outlets = []
-    for i, o in enumerate(arrays["outlets"], start=1):
+    for i, o in enumerate(items, start=1):
         key = f"outlets[{i}]"
         if ("chainage_m" in o) == ("location" in o):
             problems.add(key, "give exactly one of chainage_m or location = [lon, lat]")
@@ -504,7 +570,7 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
             problems.add(f"{key}.location", f"expected [longitude, latitude], got {loc!r}")
             loc = None
         _positive(problems, f"{key}.flow_lps", o.get("flow_lps"))
-        _large_flow(f"{key}.flow_lps", o.get("flow_lps"))
+        _large_flow(f"{key}.flow_lps", o.get("flow_lps"), stacklevel=4)
         _positive(problems, f"{key}.chainage_m", o.get("chainage_m"), allow_zero=True)
         flow, basis, volume = o.get("flow_lps", 0.0) * LPS, "flow given", None
         if ("flow_lps" in o) == ("demand" in o):
@@ -520,12 +586,17 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
         if "max_pressure_m" in o and o["max_pressure_m"] <= float(o.get(
                 "min_pressure_m", DEFAULT_OUTLET_MIN_PRESSURE_M)):
             problems.add(f"{key}.max_pressure_m", "must be above min_pressure_m")
-    if "outlets" in data and not outlets:
+    if given and not outlets:
         problems.add("outlets", "at least one outlet is needed")
-    if "outlets" not in data:
+    if not given:
         problems.add("outlets", "missing: add at least one [[outlets]] table")
+    return outlets
+
+
+def _tanks(items: list[dict[str, Any]], network: bool, problems: _Problems) -> list[Tank]:
+    """The [[break_pressure_tanks]] tables; on a single line, in increasing chainage."""
     tanks = []
-    for i, tk in enumerate(arrays["break_pressure_tanks"], start=1):
+    for i, tk in enumerate(items, start=1):
         _positive(problems, f"break_pressure_tanks[{i}].chainage_m", tk.get("chainage_m"))
         _positive(problems, f"break_pressure_tanks[{i}].water_above_ground_m",
                   tk.get("water_above_ground_m"), allow_zero=True)
@@ -534,33 +605,47 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                           water_above_ground_m=float(tk.get("water_above_ground_m", 1.0)),
                           link=tk.get("link")))
     chain = [tk.chainage_m for tk in tanks]
-    if not route.network and (chain != sorted(chain) or len(set(chain)) != len(chain)):
+    if not network and (chain != sorted(chain) or len(set(chain)) != len(chain)):
         problems.add("break_pressure_tanks", "list the tanks in increasing chainage, one per place")
+    return tanks
+
+
+def _fittings(items: list[dict[str, Any]], problems: _Problems) -> list[Fitting]:
+    """The [[fittings]] tables: loss coefficients k [-] at chainages [m]."""
     fittings = []
-    for i, f in enumerate(arrays["fittings"], start=1):
+    for i, f in enumerate(items, start=1):
         _positive(problems, f"fittings[{i}].k", f.get("k"), allow_zero=True)
         _positive(problems, f"fittings[{i}].chainage_m", f.get("chainage_m"), allow_zero=True)
         fittings.append(Fitting(name=f.get("name", f"fitting {i}"),
                                 chainage_m=float(f.get("chainage_m", 0.0)), k=float(f.get("k", 0.0)),
                                 link=f.get("link")))
-    if route.network:
-        for what, items in (("break_pressure_tanks", arrays["break_pressure_tanks"]),
-                            ("fittings", arrays["fittings"]), ("outlets", arrays["outlets"]),
-                            ("survey_points", arrays["survey_points"])):
-            for i, item in enumerate(items, start=1):
-                if "chainage_m" in item and "link" not in item:
-                    problems.add(f"{what}[{i}]", "on a network, a chainage needs the link "
-                                 "(the name of the drawn line) it is along")
+    return fittings
 
-    dr = sec["drawing"]
+
+def _network_links(arrays: dict[str, list[dict[str, Any]]], problems: _Problems) -> None:
+    """Check that on a network every item placed by chainage names its link."""
+    for what, items in (("break_pressure_tanks", arrays["break_pressure_tanks"]),
+                        ("fittings", arrays["fittings"]), ("outlets", arrays["outlets"]),
+                        ("survey_points", arrays["survey_points"])):
+        for i, item in enumerate(items, start=1):
+            if "chainage_m" in item and "link" not in item:
+                problems.add(f"{what}[{i}]", "on a network, a chainage needs the link "
+                             "(the name of the drawn line) it is along")
+
+
+def _drawing(dr: dict[str, Any], problems: _Problems) -> Drawing:
+    """The [drawing] section: sheet size and kilometres of line per sheet."""
     from .report.sheets import SHEETS
     if dr.get("sheet", "A3") not in SHEETS:
         problems.add("drawing.sheet", f"expected one of {', '.join(SHEETS)}, got {dr['sheet']!r}")
     _positive(problems, "drawing.km_per_sheet", dr.get("km_per_sheet"))
-    drawing = Drawing(sheet=dr.get("sheet", "A3"), km_per_sheet=float(dr.get("km_per_sheet", 2.0)),
-                      revision=dr.get("revision", "A"), date=dr.get("date"))
+    return Drawing(sheet=dr.get("sheet", "A3"), km_per_sheet=float(dr.get("km_per_sheet", 2.0)),
+                   revision=dr.get("revision", "A"), date=dr.get("date"))
+
+
+def _uncertainty(u: dict[str, Any], problems: _Problems) -> UncertaintySpec:
+    """The [uncertainty] section: DEM product or error [m], correlation length [m], size."""
     from .design.uncertainty import PRODUCTS
-    u = sec["uncertainty"]
     if "product" in u and u["product"] not in PRODUCTS and "sigma_m" not in u:
         close = difflib.get_close_matches(u["product"], PRODUCTS, n=1)
         problems.add("uncertainty.product", f"unknown DEM product {u['product']!r}"
@@ -570,12 +655,16 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
     _positive(problems, "uncertainty.correlation_m", u.get("correlation_m"))
     if not 10 <= u.get("realisations", 1000) <= 100_000:
         problems.add("uncertainty.realisations", f"must be 10 to 100,000, got {u['realisations']}")
-    uncertainty = UncertaintySpec(enabled=u.get("enabled", True), product=u.get("product"),
-                                  sigma_m=u.get("sigma_m"), correlation_m=u.get("correlation_m"),
-                                  realisations=int(u.get("realisations", 1000)),
-                                  seed=int(u.get("seed", 0)))
+    return UncertaintySpec(enabled=u.get("enabled", True), product=u.get("product"),
+                           sigma_m=u.get("sigma_m"), correlation_m=u.get("correlation_m"),
+                           realisations=int(u.get("realisations", 1000)),
+                           seed=int(u.get("seed", 0)))
+
+
+def _survey_points(items: list[dict[str, Any]], problems: _Problems) -> list[SurveyPoint]:
+    """The [[survey_points]] tables: surveyed ground levels [m] by chainage or location."""
     survey_points = []
-    for i, sp in enumerate(arrays["survey_points"], start=1):
+    for i, sp in enumerate(items, start=1):
         key = f"survey_points[{i}]"
         if ("chainage_m" in sp) == ("location" in sp):
             problems.add(key, "give exactly one of chainage_m or location = [lon, lat]")
@@ -588,20 +677,11 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
                                          chainage_m=sp.get("chainage_m"),
                                          location=tuple(loc) if loc else None,
                                          link=sp.get("link")))
-    if problems:
-        listing = "\n  - ".join(problems)
-        raise InputError(f"{path}: {len(problems)} problem(s) in the scenario:\n  - {listing}")
-    p = sec["project"]
-    return Scenario(
-        path=path, project=Project(name=p["name"], reference=p.get("reference", ""),
-                                   engineer=p.get("engineer", ""), notes=p.get("notes", "")),
-        terrain=terrain, route=route, source=source, pipe=pipe, outlets=tuple(outlets),
-        tanks=tuple(tanks), fittings=tuple(fittings), criteria=criteria, design=design,
-        drawing=drawing, uncertainty=uncertainty, survey_points=tuple(survey_points))
+    return survey_points
 
 
 #: Keys of each demand kind: key -> (required, default).
-DEMAND_KEYS = {
+DEMAND_KEYS: dict[str, dict[str, tuple[bool, float | None]]] = {
     "domestic": {"population": (True, None), "per_capita_lpd": (True, None),
                  "peak_factor": (False, 3.0), "growth_rate": (False, 0.0),
                  "horizon_years": (False, 0.0)},
@@ -637,6 +717,7 @@ def _demand(d: dict, key: str, problems: _Problems):
             if required:
                 problems.add(f"{key}.{k}", "missing (required)")
                 return 0.0, "", None
+            assert default is not None, k        # DEMAND_KEYS: every optional key has one
             vals[k] = default
     try:
         if kind == "domestic":

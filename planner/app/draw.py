@@ -38,8 +38,11 @@ def route_drawing(scenario) -> dict:
 
 
 def scenario_points(scenario, drawing: dict) -> list[dict]:
-    """Point features for the source (its location, else the first line's start) and
-    for every outlet given by location, with the properties the page edits."""
+    """Point features for the source and for every outlet given by location.
+
+    The source is at its location, else at the first line's start; each feature carries
+    the properties the page edits.
+    """
     feats = drawing["features"]
     src = scenario.source.location or (feats[0]["geometry"]["coordinates"][0][:2] if feats else None)
     out = []

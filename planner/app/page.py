@@ -46,8 +46,10 @@ def _png_data_uri(rgba: np.ndarray) -> str:
 
 
 def _cursor_grid(grid: np.ndarray, transform, crs) -> dict:
-    """A DEM window resampled onto a lon/lat grid (longest side :data:`CURSOR_PIXELS`)
-    for the elevation under the cursor."""
+    """A DEM window resampled onto a lon/lat grid, for the elevation under the cursor.
+
+    The grid's longest side is at most :data:`CURSOR_PIXELS` cells.
+    """
     from rasterio.enums import Resampling
     from rasterio.warp import calculate_default_transform, reproject
 
@@ -72,8 +74,10 @@ def _cursor_grid(grid: np.ndarray, transform, crs) -> dict:
 
 
 def terrain_layers(dem: Dem) -> dict:
-    """Hillshade (data URI and bounds), contours and the cursor grid of the whole DEM,
-    all from one decimated read."""
+    """Hillshade (data URI and bounds), contours and the cursor grid of the whole DEM.
+
+    All three come from one decimated read.
+    """
     from ..report.web_map import _overlay, contour_lines
 
     grid, transform = read_overview(dem, dem.bounds, max_pixels=SHADE_PIXELS)

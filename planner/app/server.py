@@ -95,7 +95,8 @@ class _Handler(BaseHTTPRequestHandler):
             self.end_headers()
             return None
         if path == "/api/state":
-            return self._json(HTTPStatus.OK, {"ok": True, "scenario": self.app.session.scenario.project.name,
+            return self._json(HTTPStatus.OK, {"ok": True,
+                                              "scenario": self.app.session.scenario.project.name,
                                               "saves_to": self.app.target.name,
                                               "drawing": self.app.drawing})
         return self._json(HTTPStatus.NOT_FOUND, {"ok": False, "error": f"no such page: {path}"})
@@ -107,10 +108,12 @@ class _Handler(BaseHTTPRequestHandler):
             return None
         origin = self.headers.get("Origin")
         if origin is not None and origin.split("//", 1)[-1].rsplit(":", 1)[0] not in (LOOPBACK, "localhost"):
-            self._json(HTTPStatus.FORBIDDEN, {"ok": False, "error": "requests must come from the editor page"})
+            self._json(HTTPStatus.FORBIDDEN,
+                       {"ok": False, "error": "requests must come from the editor page"})
             return None
         if (self.headers.get("Content-Type") or "").split(";")[0].strip() != "application/json":
-            self._json(HTTPStatus.UNSUPPORTED_MEDIA_TYPE, {"ok": False, "error": "send the drawing as application/json"})
+            self._json(HTTPStatus.UNSUPPORTED_MEDIA_TYPE,
+                       {"ok": False, "error": "send the drawing as application/json"})
             return None
         try:
             size = int(self.headers.get("Content-Length") or "")
@@ -120,13 +123,15 @@ class _Handler(BaseHTTPRequestHandler):
         if size > MAX_BODY or size < 0:
             self.close_connection = True
             self._json(HTTPStatus.REQUEST_ENTITY_TOO_LARGE,
-                       {"ok": False, "error": f"the drawing is {size:,} bytes; at most {MAX_BODY:,} are accepted"})
+                       {"ok": False, "error": f"the drawing is {size:,} bytes; at most {MAX_BODY:,} "
+                                              "are accepted"})
             return None
         raw = self.rfile.read(size)
         try:
             return json.loads(raw.decode("utf-8"))
         except (UnicodeDecodeError, json.JSONDecodeError) as exc:
-            self._json(HTTPStatus.BAD_REQUEST, {"ok": False, "error": f"the drawing is not valid JSON ({exc})"})
+            self._json(HTTPStatus.BAD_REQUEST,
+                       {"ok": False, "error": f"the drawing is not valid JSON ({exc})"})
             return None
 
     def do_POST(self):
@@ -146,7 +151,8 @@ class _Handler(BaseHTTPRequestHandler):
         except (DrawingError, PlannerError) as exc:
             return self._json(HTTPStatus.OK, {"ok": False, "error": str(exc)})
         except OSError as exc:
-            return self._json(HTTPStatus.OK, {"ok": False, "error": f"could not write {self.app.target.name}: {exc}"})
+            return self._json(HTTPStatus.OK,
+                              {"ok": False, "error": f"could not write {self.app.target.name}: {exc}"})
         except Exception as exc:                  # a bug: say so in the page, log the trace
             log.exception("internal error")
             return self._json(HTTPStatus.INTERNAL_SERVER_ERROR,
@@ -176,9 +182,11 @@ class App:
 
     @property
     def url(self) -> str:
+        """The editor page's address on the loopback interface."""
         return f"http://{LOOPBACK}:{self.httpd.server_address[1]}/"
 
     def serve_forever(self) -> None:
+        """Answer requests until :meth:`shutdown`, then close the server and the session."""
         try:
             self.httpd.serve_forever()
         finally:
@@ -186,4 +194,5 @@ class App:
             self.session.close()
 
     def shutdown(self) -> None:
+        """Stop :meth:`serve_forever` (from another thread)."""
         self.httpd.shutdown()

@@ -89,17 +89,10 @@ def parse_drawing(obj) -> tuple[list[tuple[LineString, str]], list[dict]]:
     DrawingError
         With the feature and vertex at fault and what to do.
     """
-    if not isinstance(obj, dict) or "type" not in obj:
-        raise DrawingError("the drawing is not GeoJSON: expected a FeatureCollection of lines")
-    if obj["type"] == "FeatureCollection":
-        feats = obj.get("features")
-        if not isinstance(feats, list):
-            raise DrawingError("the FeatureCollection has no list of features")
-    elif obj["type"] == "Feature":
-        feats = [obj]
-    else:
-        feats = [{"type": "Feature", "geometry": obj, "properties": {}}]
-    lines, points, vertices = [], [], 0
+    feats = _features(obj)
+    lines: list[tuple[LineString, str]] = []
+    points: list[dict] = []
+    vertices = 0
     for i, f in enumerate(feats, start=1):
         if not isinstance(f, dict) or not isinstance(f.get("geometry"), dict):
             raise DrawingError(f"feature {i} has no geometry")
@@ -113,34 +106,63 @@ def parse_drawing(obj) -> tuple[list[tuple[LineString, str]], list[dict]]:
         elif kind == "MultiLineString":
             parts = g.get("coordinates") or []
         elif kind == "Point":
-            xy = _coords([g.get("coordinates")], f"feature {i} (point)")
-            points.append({**{k: v for k, v in props.items() if isinstance(v, (str, int, float))},
-                           "lon": float(xy[0, 0]), "lat": float(xy[0, 1]),
-                           "role": str(props.get("role") or "point"), "name": name})
+            points.append(_point(g, props, name, i))
             continue
         else:
             raise DrawingError(f"feature {i} is a {kind}; draw lines (and points for the source "
                                "and outlets) only")
         for part in parts:
-            where = f"feature {i}" + (f" ({name})" if name else "")
-            xy = _coords(part, where)
-            if len(xy) < 2:
-                raise DrawingError(f"{where}: the line has fewer than two distinct points; "
-                                   "finish it with at least a start and an end")
-            vertices += len(xy)
-            if vertices > MAX_VERTICES:
-                raise DrawingError(f"the drawing has more than {MAX_VERTICES:,} vertices; "
-                                   "simplify it or plan it from a file with `gravplan plan`")
-            try:
-                route = route_from_line(LineString(xy), source=where)
-            except InputError as exc:
-                raise DrawingError(str(exc)) from None
-            lines.append((route.line, name))
+            vertices = _add_line(lines, part, f"feature {i}" + (f" ({name})" if name else ""),
+                                 name, vertices)
     if len(lines) > MAX_LINES:
         raise DrawingError(f"the drawing has {len(lines)} lines; at most {MAX_LINES} are accepted")
     if not lines:
         raise DrawingError("the drawing has no line yet: draw the route from the source")
     return lines, points
+
+
+def _features(obj) -> list:
+    """The features of a GeoJSON object; a bare geometry becomes one feature."""
+    if not isinstance(obj, dict) or "type" not in obj:
+        raise DrawingError("the drawing is not GeoJSON: expected a FeatureCollection of lines")
+    if obj["type"] == "FeatureCollection":
+        feats = obj.get("features")
+        if not isinstance(feats, list):
+            raise DrawingError("the FeatureCollection has no list of features")
+        return feats
+    if obj["type"] == "Feature":
+        return [obj]
+    return [{"type": "Feature", "geometry": obj, "properties": {}}]
+
+
+def _point(g: dict, props: dict, name: str, i: int) -> dict:
+    """A drawn point (feature ``i``): ``{"lon", "lat", "role", "name"}`` and its properties.
+
+    Only the properties that are text or numbers are kept.
+    """
+    xy = _coords([g.get("coordinates")], f"feature {i} (point)")
+    return {**{k: v for k, v in props.items() if isinstance(v, (str, int, float))},
+            "lon": float(xy[0, 0]), "lat": float(xy[0, 1]),
+            "role": str(props.get("role") or "point"), "name": name}
+
+
+def _add_line(lines: list[tuple[LineString, str]], part, where: str, name: str,
+              vertices: int) -> int:
+    """Check one drawn line and append it to ``lines``; the vertex count so far, with it."""
+    xy = _coords(part, where)
+    if len(xy) < 2:
+        raise DrawingError(f"{where}: the line has fewer than two distinct points; "
+                           "finish it with at least a start and an end")
+    vertices += len(xy)
+    if vertices > MAX_VERTICES:
+        raise DrawingError(f"the drawing has more than {MAX_VERTICES:,} vertices; "
+                           "simplify it or plan it from a file with `gravplan plan`")
+    try:
+        route = route_from_line(LineString(xy), source=where)
+    except InputError as exc:
+        raise DrawingError(str(exc)) from None
+    lines.append((route.line, name))
+    return vertices
 
 
 def _take(n: int, keep, most: int) -> np.ndarray:
@@ -218,7 +240,6 @@ def _line_summary(plan) -> dict:
 
 def summarise(plan) -> dict:
     """A JSON-ready digest of a line's or a network's plan for the live page."""
-
     if isinstance(plan, NetworkPlan):
         L = len(plan.links)
         paths = [{"name": plan.path_name(k), **_line_summary(as_line_plan(plan, plan.path(k)))}
@@ -273,6 +294,7 @@ class LiveSession:
         self._lock = threading.Lock()
 
     def close(self) -> None:
+        """Close the scenario's DEM."""
         self.dem.close()
 
     def replan(self, drawing) -> dict:

@@ -44,7 +44,7 @@ PE_WALLS = {
 }
 # ISO 1452-2 PVC-U: SDR for each PN by size class (design coefficient 2.5 up to 90 mm,
 # 2.0 from 110 mm; from memory)
-PVC_SDR = {"small": {6: 33, 10: 21, 16: 13.6}, "large": {6: 41, 10: 26, 16: 17}}
+PVC_SDR: dict[str, dict[int, float]] = {"small": {6: 33, 10: 21, 16: 13.6}, "large": {6: 41, 10: 26, 16: 17}}
 PVC_SIZES = (40, 50, 63, 75, 90, 110, 125, 140, 160, 200, 250, 315)
 # ISO 65 / EN 10255 medium series: (label, DN, OD mm, wall mm); EN 10255:2004 medium
 # series table (the 2 1/2 and 3 in walls from memory)
@@ -92,6 +92,7 @@ PRICE_NOTE = ("cost_per_m: INVENTED DEMO PRICES (a smooth function of pipe mass)
 
 
 def build_pe(material: str) -> Path:
+    """Write the catalogue CSV of one PE material (``"PE100"`` or ``"PE80"``); its path."""
     mrs, c = MRS_MPA[material], DESIGN_COEFFICIENT[material]
     modulus = {"PE100": 1.0, "PE80": 0.8}[material]
     rows = []
@@ -124,6 +125,7 @@ def build_pe(material: str) -> Path:
 
 
 def build_pvc() -> Path:
+    """Write the PVC-U catalogue CSV (ISO 1452-2 series); its path."""
     rows = []
     for od in PVC_SIZES:
         cls = "small" if od <= 90 else "large"
@@ -154,6 +156,7 @@ def build_pvc() -> Path:
 
 
 def build_gi() -> Path:
+    """Write the galvanised steel tube catalogue CSV (medium series); its path."""
     rows = []
     for label, dn, od, e in GI_MEDIUM:
         idia = round(od - 2 * e, 2)
@@ -175,6 +178,7 @@ def build_gi() -> Path:
 
 
 def main() -> None:
+    """Write every built-in catalogue CSV and print where."""
     for path in (build_pe("PE100"), build_pe("PE80"), build_pvc(), build_gi()):
         print(f"wrote {path}")
 

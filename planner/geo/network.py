@@ -56,6 +56,7 @@ class RouteNetwork:
 
     @property
     def leaves(self) -> list[int]:
+        """The branch ends: nodes no link leaves, in increasing order."""
         ups = {k.upstream for k in self.links}
         return sorted({k.downstream for k in self.links} - ups)
 
@@ -114,8 +115,11 @@ def read_lines(path: str | Path) -> list[tuple[LineString, str]]:
 
 
 def _split(g: LineString, at: float) -> tuple[LineString, LineString]:
-    """A metric line cut in two ``at`` metres along it.  A 3-D line keeps the heights of
-    its own vertices; the cut vertex gets none (NaN): no GPS height was taken there."""
+    """A metric line cut in two ``at`` metres along it.
+
+    A 3-D line keeps the heights of its own vertices; the cut vertex gets none (NaN):
+    no GPS height was taken there.
+    """
     flat = LineString(np.asarray(g.coords)[:, :2]) if g.has_z else g
     a, b = substring(flat, 0, at), substring(flat, at, flat.length)
     if not g.has_z:
@@ -134,8 +138,10 @@ def _split(g: LineString, at: float) -> tuple[LineString, LineString]:
 
 
 def _gpx_heights(p: Path, layer: str) -> dict[tuple[int, int], np.ndarray]:
-    """GPS heights of a GPX layer's lines: (track or route, segment) -> heights [m], for
-    the lines whose every point has one."""
+    """GPS heights of a GPX layer's lines: (track or route, segment) -> heights [m].
+
+    Only the lines whose every point has a height are given.
+    """
     import pyogrio
 
     if layer not in ("tracks", "routes"):
@@ -195,8 +201,25 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
         return LineString(np.column_stack([xy, c[:, 2]]) if g.has_z else xy)
 
     metric = [(to_m(g), name, 0.0) for g, name in pairs]
-    notes = []
-    # tees part-way along a line: split the line where another line's end touches it
+    notes: list[str] = []
+    _split_at_tees(metric, snap_tolerance_m, notes)
+    node_xy, edges = _snap_ends(metric, snap_tolerance_m)
+    _check_no_loops(edges, node_xy, back)
+    root = _root(node_xy, edges, source, fwd, snap_tolerance_m)
+    _check_connected(node_xy, edges, root, back, snap_tolerance_m)
+    links = _orient(metric, edges, node_xy.shape[0], root, back, notes)
+    lon, lat = back.transform(node_xy[:, 0], node_xy[:, 1])
+    return RouteNetwork(nodes=np.column_stack([lon, lat]), links=tuple(links), root=root,
+                        notes=tuple(notes))
+
+
+def _split_at_tees(metric: list[tuple[LineString, str, float]], snap_tolerance_m: float,
+                   notes: list[str]) -> None:
+    """Split, in place, each metric line where another line's end touches it part-way along.
+
+    ``metric`` holds (line [m], name, offset along the drawn line [m]); each split is
+    noted in ``notes``.
+    """
     changed = True
     while changed:
         changed = False
@@ -204,7 +227,8 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
         for k, (g, name, off) in enumerate(metric):
             for e in ends:
                 d_along = g.project(e)
-                if g.distance(e) <= snap_tolerance_m and snap_tolerance_m < d_along < g.length - snap_tolerance_m:
+                if (g.distance(e) <= snap_tolerance_m
+                        and snap_tolerance_m < d_along < g.length - snap_tolerance_m):
                     a, b = _split(g, d_along)
                     metric[k:k + 1] = [(a, name, off), (b, name, off + d_along)]
                     notes.append(f"line {name or k + 1!s} split where a branch joins it")
@@ -212,7 +236,15 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
                     break
             if changed:
                 break
-    # snap ends into nodes
+
+
+def _snap_ends(metric: list[tuple[LineString, str, float]], snap_tolerance_m: float
+               ) -> tuple[np.ndarray, list[tuple[int, int]]]:
+    """The nodes (x, y [m]) that line ends snap to, and each line's (start, end) node.
+
+    Ends within ``snap_tolerance_m`` [m] of one another, directly or through a chain of
+    ends, become one node at their mean position.
+    """
     ends = np.array([g.coords[i][:2] for g, _, _ in metric for i in (0, -1)])
     tree = cKDTree(ends)
     pairs_close = np.array(sorted(tree.query_pairs(snap_tolerance_m)), dtype=np.int64).reshape(-1, 2)
@@ -222,7 +254,12 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
     _, label = connected_components(graph, directed=False)
     node_xy = np.array([ends[label == c].mean(axis=0) for c in range(label.max() + 1)])
     edges = [(int(label[2 * k]), int(label[2 * k + 1])) for k in range(len(metric))]
-    seen = {}
+    return node_xy, edges
+
+
+def _check_no_loops(edges: list[tuple[int, int]], node_xy: np.ndarray, back: Transformer) -> None:
+    """Raise for a line that closes on itself or two lines joining the same two nodes."""
+    seen: dict[tuple[int, ...], int] = {}
     for k, (a, b) in enumerate(edges):
         if a == b:
             raise InputError(f"line {k + 1} starts and ends at the same place (a loop)")
@@ -233,20 +270,29 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
                              f"(one near lon {lon:.6f}, lat {lat:.6f}): a loop or a duplicate; "
                              "keep one line, or solve the looped network elsewhere")
         seen[key] = k
+
+
+def _root(node_xy: np.ndarray, edges: list[tuple[int, int]], source: tuple[float, float] | None,
+          fwd: Transformer, snap_tolerance_m: float) -> int:
+    """The node nearest the source (lon, lat), or the first line's start without one."""
+    if source is None:
+        return edges[0][0]
+    sx, sy = fwd.transform(*source)
+    d = np.hypot(node_xy[:, 0] - sx, node_xy[:, 1] - sy)
+    root = int(np.argmin(d))
+    if d[root] > max(snap_tolerance_m, 50.0):
+        raise InputError(f"the source {list(source)} is {d[root]:,.0f} m from the nearest line "
+                         "end; start a line at the source")
+    return root
+
+
+def _check_connected(node_xy: np.ndarray, edges: list[tuple[int, int]], root: int,
+                     back: Transformer, snap_tolerance_m: float) -> None:
+    """Raise for pieces not connected to the root, and for loops (more lines than a tree)."""
     n = node_xy.shape[0]
     adj = coo_matrix((np.ones(len(edges)), ([a for a, _ in edges], [b for _, b in edges])),
                      shape=(n, n))
     ncomp, comp = connected_components(adj, directed=False)
-    # the root: nearest node to the source
-    if source is not None:
-        sx, sy = fwd.transform(*source)
-        d = np.hypot(node_xy[:, 0] - sx, node_xy[:, 1] - sy)
-        root = int(np.argmin(d))
-        if d[root] > max(snap_tolerance_m, 50.0):
-            raise InputError(f"the source {list(source)} is {d[root]:,.0f} m from the nearest line "
-                             "end; start a line at the source")
-    else:
-        root = edges[0][0]
     if ncomp > 1:
         apart = [c for c in range(ncomp) if c != comp[root]]
         where = []
@@ -259,12 +305,20 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
     if len(edges) != n - 1:
         raise InputError(f"the network has {len(edges) - (n - 1)} loop(s): {len(edges)} lines "
                          f"join {n} points; a tree has one line fewer than points")
-    # orient every line away from the root (breadth first)
-    incident = {i: [] for i in range(n)}
+
+
+def _orient(metric: list[tuple[LineString, str, float]], edges: list[tuple[int, int]], n: int,
+            root: int, back: Transformer, notes: list[str]) -> list[NetworkLink]:
+    """The links in lon/lat, each turned to run away from the root (breadth first).
+
+    A line turned round is noted in ``notes``.
+    """
+    incident: dict[int, list[int]] = {i: [] for i in range(n)}
     for k, (a, b) in enumerate(edges):
         incident[a].append(k)
         incident[b].append(k)
-    links, queue, visited = [], deque([root]), {root}
+    links: list[NetworkLink] = []
+    queue, visited = deque([root]), {root}
     while queue:
         u = queue.popleft()
         for k in incident[u]:
@@ -285,6 +339,5 @@ def build_tree(lines: list[tuple[LineString, str]] | list[LineString], *,
                                      upstream=u, downstream=v, name=name, turned=turned,
                                      offset_m=off,
                                      gps_elevation_m=xy[:, 2].copy() if g.has_z else None))
-    lon, lat = back.transform(node_xy[:, 0], node_xy[:, 1])
-    return RouteNetwork(nodes=np.column_stack([lon, lat]), links=tuple(links), root=root,
-                        notes=tuple(notes))
+    return links
+

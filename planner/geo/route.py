@@ -102,9 +102,9 @@ def _check_lonlat(xy: NDArray, source: str) -> None:
         bad = int(np.argmax(~np.all(np.isfinite(xy), axis=1))) if xy.size else 0
         raise InputError(f"{source}: vertex {bad + 1} has a missing or non-numeric coordinate; "
                          "fix or delete that vertex")
-    bad = np.flatnonzero((np.abs(xy[:, 0]) > 180) | (np.abs(xy[:, 1]) > 90))
-    if bad.size:
-        i = int(bad[0])
+    outside = np.flatnonzero((np.abs(xy[:, 0]) > 180) | (np.abs(xy[:, 1]) > 90))
+    if outside.size:
+        i = int(outside[0])
         raise InputError(
             f"{source}: vertex {i + 1} ({xy[i, 0]:g}, {xy[i, 1]:g}) is not a longitude/"
             "latitude; the file must be in WGS84 degrees (GeoJSON, KML and GPX always are)")
@@ -137,42 +137,24 @@ def read_route(path: str | Path, *, crs: str | None = None) -> Route | Survey:
 
 
 def _read_vector(p: Path, kind: str) -> Route:
+    """The one route line of a GeoJSON, KML or GPX file (``kind``), in lon/lat."""
     import pyogrio
 
     try:
         available = [str(name) for name, _ in pyogrio.list_layers(p)]
     except Exception as exc:  # pyogrio raises several GDAL-derived types
         raise InputFileError(f"{p}: cannot read this {kind} file ({exc})") from None
-    layers = [name for name in ("tracks", "routes") if name in available] if kind == "GPX" \
-        else available
-    geoms, file_crs, elevations, used = [], None, None, None
-    for layer in layers:
-        try:
-            frame = pyogrio.read_dataframe(p, layer=layer)
-        except Exception as exc:
-            if "point array must contain" in str(exc):
-                raise InputFileError(f"{p}: a line has fewer than two distinct points; draw or "
-                                     "record at least a start and an end") from None
-            raise InputFileError(f"{p}: cannot read layer {layer!r} ({exc})") from None
-        parts = [g for g in frame.geometry if g is not None and not g.is_empty]
-        if parts:
-            geoms.extend(parts)
-            file_crs = file_crs or frame.crs
-            used = used or layer
-            if kind == "GPX":
-                break
+    layers: list[str] = [name for name in ("tracks", "routes") if name in available] \
+        if kind == "GPX" else available
+    geoms, file_crs, used = _read_layers(p, kind, layers)
+    elevations = None
     if kind == "GPX" and geoms:
         elevations = _gpx_elevations(p, used)
     if not geoms:
         raise InputFileError(f"{p}: the {kind} file holds no line geometry; a route is a line "
                              "(a track or route in GPX, a LineString in GeoJSON or KML), not "
                              "only points")
-    lines = []
-    for g in geoms:
-        if g.geom_type in ("LineString", "MultiLineString"):
-            lines.append(g)
-        elif g.geom_type == "GeometryCollection":
-            lines.extend(x for x in g.geoms if x.geom_type in ("LineString", "MultiLineString"))
+    lines = _line_parts(geoms)
     if not lines:
         kinds = sorted({g.geom_type for g in geoms})
         raise InputFileError(f"{p}: no LineString in the file (found {', '.join(kinds)}); "
@@ -196,13 +178,52 @@ def _read_vector(p: Path, kind: str) -> Route:
     return route
 
 
+def _read_layers(p: Path, kind: str, layers: list[str]) -> tuple[list, CRS | None, str | None]:
+    """The non-empty geometries of the layers, the first such layer's CRS and its name.
+
+    A GPX file gives those of its first layer (tracks, else routes) that has any.
+    """
+    import pyogrio
+
+    geoms: list = []
+    file_crs: CRS | None = None
+    used: str | None = None
+    for layer in layers:
+        try:
+            frame = pyogrio.read_dataframe(p, layer=layer)
+        except Exception as exc:
+            if "point array must contain" in str(exc):
+                raise InputFileError(f"{p}: a line has fewer than two distinct points; draw or "
+                                     "record at least a start and an end") from None
+            raise InputFileError(f"{p}: cannot read layer {layer!r} ({exc})") from None
+        parts = [g for g in frame.geometry if g is not None and not g.is_empty]
+        if parts:
+            geoms.extend(parts)
+            file_crs = file_crs or frame.crs
+            used = used or layer
+            if kind == "GPX":
+                break
+    return geoms, file_crs, used
+
+
+def _line_parts(geoms: list) -> list:
+    """The LineStrings and MultiLineStrings among ``geoms``, also inside collections."""
+    lines = []
+    for g in geoms:
+        if g.geom_type in ("LineString", "MultiLineString"):
+            lines.append(g)
+        elif g.geom_type == "GeometryCollection":
+            lines.extend(x for x in g.geoms if x.geom_type in ("LineString", "MultiLineString"))
+    return lines
+
+
 def _join(lines: list) -> LineString | MultiLineString:
     """Join line parts end to end into one line, keeping the direction they were drawn in.
 
     The route runs from the source, so the joined line starts where the first part
     starts; parts drawn against that direction are turned round.
     """
-    parts = []
+    parts: list[LineString] = []
     for g in lines:
         parts.extend(g.geoms if g.geom_type == "MultiLineString" else [g])
     if len(parts) == 1:

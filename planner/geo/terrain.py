@@ -118,6 +118,7 @@ class Dem:
         return f"{names} ({self.crs.to_string()}, pixels {rx:g} x {ry:g})"
 
     def close(self) -> None:
+        """Close the open rasters (closing twice is harmless)."""
         for ds in getattr(self, "_datasets", []):
             ds.close()
         self._datasets = []

@@ -10,7 +10,6 @@ water codes still prescribe.
 from __future__ import annotations
 
 import warnings
-from typing import Literal
 
 import numpy as np
 
@@ -364,7 +363,7 @@ def hazen_williams_head_loss(flow, diameter, length, c_factor):
     return as_output(h)
 
 
-def head_loss(flow, diameter, length, *, method: Literal["colebrook", "hazen-williams"],
+def head_loss(flow, diameter, length, *, method: str,
               roughness=None, c_factor=None, kinematic_viscosity=None):
     """Friction head loss by the chosen method.
 

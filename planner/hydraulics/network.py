@@ -132,7 +132,9 @@ def surge_path_lengths(slope_length: list[NDArray], parents: list[int],
     list of ndarray
         For each link, the length for each of its reaches [m].
     """
-    region, dist, length = {}, {}, {}
+    region: dict[tuple[int, int], tuple[int, int]] = {}
+    dist: dict[tuple[int, int], float] = {}
+    length: dict[tuple[int, int], float] = {}
     longest: dict[tuple[int, int], float] = {}
     for k, (sl, idx) in enumerate(zip(slope_length, surfaces)):
         ends = list(idx[1:]) + [sl.size - 1]

@@ -22,7 +22,8 @@ def layers(plans) -> dict:
 
     plans = list(plans) if isinstance(plans, (list, tuple)) else [plans]
     crs = plans[0].profile.crs
-    rows = {"stretches": [], "features": [], "outlets": [], "tanks": [], "profile_points": []}
+    rows: dict[str, list[dict]] = {"stretches": [], "features": [], "outlets": [], "tanks": [],
+                                   "profile_points": []}
     for n, pl in enumerate(plans):
         prof, e = pl.profile, pl.energy
         for st in pl.stretches:

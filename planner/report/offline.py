@@ -4,8 +4,9 @@ folium's page template loads Leaflet and its helpers from CDNs, so the saved pag
 blank without a network.  :func:`make_offline` replaces each external ``<script>`` and
 stylesheet ``<link>`` by the vendored file's content (``report/assets/``, copied from
 the npm registry with their licences), turns the CSS's images into ``data:`` URIs, and
-drops the libraries our maps do not use (Bootstrap, the icon fonts and marker icons).  An external resource it does not know is an error, so that a folium upgrade
-that adds one is noticed rather than shipped as a page that silently needs internet.
+drops the libraries our maps do not use (Bootstrap, the icon fonts and marker icons).
+An external resource it does not know is an error, so that a folium upgrade that adds
+one is noticed rather than shipped as a page that silently needs internet.
 """
 
 from __future__ import annotations

@@ -180,6 +180,11 @@ def uncertainty_to_dict(u) -> dict | None:
     """The DEM-error Monte Carlo: model, probabilities per outlet, crest and stretch."""
     if u is None:
         return None
+    return _uncertainty_dict(u)
+
+
+def _uncertainty_dict(u) -> dict:
+    """The DEM-error Monte Carlo ``u`` (not None) as in :func:`uncertainty_to_dict`."""
     m = u.model
     return {
         "model": {"product": m.product, "sigma_m": _f(m.sigma_m, 3),
@@ -211,10 +216,13 @@ def elevations_to_dict(prof, stretches) -> dict:
                "offsets": [{"chainage_m": _f(c, 2), "gps_minus_dem_m": _f(o, 2)}
                            for c, o in zip(prof.gps_chainage_m, prof.gps_offset_m)]}
     return {"source": prof.elevation_source,
-            "pins": [{"name": n, "chainage_m": _f(c, 2), "offset_m": _f(o, 3)} for n, c, o in prof.pins],
+            "pins": [{"name": n, "chainage_m": _f(c, 2), "offset_m": _f(o, 3)}
+                     for n, c, o in prof.pins],
             "gps_comparison": gps,
-            "by_stretch": [{"from_chainage_m": _f(st.chainage_m, 2), "to_chainage_m": _f(st.chainage_end_m, 2),
-                            "elevation_source": elevation_source_between(prof, st.chainage_m, st.chainage_end_m)}
+            "by_stretch": [{"from_chainage_m": _f(st.chainage_m, 2),
+                            "to_chainage_m": _f(st.chainage_end_m, 2),
+                            "elevation_source": elevation_source_between(prof, st.chainage_m,
+                                                                         st.chainage_end_m)}
                            for st in stretches]}
 
 
@@ -249,7 +257,7 @@ def network_to_dict(plan, link_plans, drawings) -> dict:
         "variables": s.variables, "constraints": s.constraints,
         "cheapest_single_size_cost": _f(plan.single_size_cost, 2)
         if plan.single_size_cost is not None else None}
-    uncertainty = [{"path": name, **uncertainty_to_dict(u)} for name, u in plan.uncertainty]
+    uncertainty = [{"path": name, **_uncertainty_dict(u)} for name, u in plan.uncertainty]
     return {
         "schema": NETWORK_SCHEMA, "mode": plan.mode, "uncertainty": uncertainty,
         "tool": first["tool"], "project": first["project"], "inputs": first["inputs"],

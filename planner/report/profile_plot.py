@@ -64,11 +64,12 @@ def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
 
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
+    from matplotlib.layout_engine import ConstrainedLayoutEngine
 
     if ax is None:
-        fig, (ax, axp) = plt.subplots(2, 1, figsize=figsize, sharex=True, layout="constrained",
+        layout = ConstrainedLayoutEngine(rect=(0.0, 0.03, 1.0, 0.97))
+        fig, (ax, axp) = plt.subplots(2, 1, figsize=figsize, sharex=True, layout=layout,
                                       gridspec_kw={"height_ratios": [3, 1.4]})
-        fig.get_layout_engine().set(rect=(0.0, 0.03, 1.0, 0.97))
     else:
         fig, axp = ax.figure, None
     ve = draw_panels(ax, axp, plan)
@@ -158,7 +159,8 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
     sc = plan.scenario
     if title:
         pipes = (sc.pipe.label or sc.pipe.material) if sc.pipe is not None else \
-            f"{len({st.option.label for st in plan.stretches})} pipe sizes/classes, cost {plan.pipe_cost:,.0f}"
+            (f"{len({st.option.label for st in plan.stretches})} pipe sizes/classes, "
+             f"cost {plan.pipe_cost:,.0f}")
         ax.set_title(f"{sc.project.name}\n{pipes}, design flow {plan.total_flow_m3s * 1e3:.2f} L/s",
                      fontsize=11, loc="left")
 

@@ -23,8 +23,11 @@ WASTE = 0.03
 
 
 def supply_length(material: str, outside_diameter_mm: float) -> tuple[float, str]:
-    """How a pipe is sold: PE up to 110 mm in 100 m coils, larger PE in 12 m lengths,
-    PVC-U and steel in 6 m lengths (common practice; check your supplier)."""
+    """How a pipe is sold: the supply length [m] and its description.
+
+    PE up to 110 mm comes in 100 m coils, larger PE in 12 m lengths, PVC-U and steel in
+    6 m lengths (common practice; check your supplier).
+    """
     m = material.upper()
     if m.startswith("PE"):
         return (100.0, "coil of 100 m") if outside_diameter_mm <= 110 else (12.0, "12 m length")
@@ -43,6 +46,7 @@ class Line:
 
     @property
     def total(self) -> float:
+        """The line's cost: quantity times unit cost."""
         return self.quantity * self.unit_cost
 
 
@@ -110,6 +114,7 @@ def bill(plans, *, junctions: int = 0, waste: float = WASTE) -> list[Line]:
 
 
 def bill_csv_text(lines: list[Line]) -> str:
+    """The bill as CSV text, one row per line and a total row."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["item", "description", "quantity", "unit", "unit_cost", "total"])

@@ -1,5 +1,6 @@
-"""Profile drawings for a permit file: the line on numbered sheets, with a data band and
-a title block.
+"""Profile drawings for a permit file.
+
+The line is drawn on numbered sheets, each with a data band and a title block.
 
 Each sheet covers ``km_per_sheet`` of chainage; consecutive sheets meet at the same
 chainage.  Under the profile and pressure panels a data band gives chainage, ground,

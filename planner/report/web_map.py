@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import html
 from pathlib import Path
+from typing import cast
 
 import numpy as np
 
@@ -66,9 +67,10 @@ def _overlay(grid: np.ndarray, transform, crs):
     shade = hillshade(3.0 * merc, abs(dst_t.a), abs(dst_t.e))
     grey = (40 + 215 * np.nan_to_num(shade, nan=1.0)).astype(np.uint8)
     rgba = np.dstack([grey, grey, grey, np.where(np.isfinite(merc), 255, 0).astype(np.uint8)])
-    l, b, r, t = transform_bounds(dst_crs, "EPSG:4326", dst_t.c, dst_t.f + dst_t.e * dh,
-                                  dst_t.c + dst_t.a * dw, dst_t.f)
-    return rgba, [[b, l], [t, r]]
+    west, south, east, north = transform_bounds(dst_crs, "EPSG:4326", dst_t.c,
+                                                dst_t.f + dst_t.e * dh, dst_t.c + dst_t.a * dw,
+                                                dst_t.f)
+    return rgba, [[south, west], [north, east]]
 
 
 def contour_lines(grid: np.ndarray, transform, crs, *, target: int = 25):
@@ -135,6 +137,7 @@ def build_map(plan, *, terrain=None, title: str | None = None, outlet_risk=None)
     """
     import branca.colormap as cm
     import folium
+    from branca.element import Figure
 
     plans = list(plan) if isinstance(plan, (list, tuple)) else [plan]
     if outlet_risk is None:
@@ -239,14 +242,15 @@ def build_map(plan, *, terrain=None, title: str | None = None, outlet_risk=None)
     heading = (f"<div style='position:fixed;top:10px;left:60px;z-index:1000;background:white;"
                f"padding:6px 10px;border:1px solid #888;font:13px sans-serif;max-width:60%'>"
                f"<b>{esc(title or sc.project.name)}</b><br>{esc(SHORT_CAUTION)}</div>")
-    m.get_root().html.add_child(folium.Element(heading))
+    root = cast(Figure, m.get_root())         # a folium Map's root is always its Figure
+    root.html.add_child(folium.Element(heading))
     dot = ("<span style='display:inline-block;width:11px;height:11px;border-radius:6px;"
            "border:1px solid #000;background:{};margin-right:5px'></span>{}<br>")
     legend = "".join(dot.format(c, esc(t)) for c, t in (
         ("#1f4e9c", "source"), ("#ffffff", "break-pressure tank"),
         ("#2e8b57", "outlet, pressure met"), ("#c0392b", "outlet, pressure short"),
         ("#f1c40f", "air valve"), ("#8e44ad", "washout")))
-    m.get_root().html.add_child(folium.Element(
+    root.html.add_child(folium.Element(
         "<div id='plan-legend' style='position:fixed;bottom:64px;left:10px;z-index:1000;"
         "background:white;padding:6px 10px;border:1px solid #888;font:12px sans-serif'>"
         f"{legend}</div>"))
