@@ -99,16 +99,61 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
     list of Finding
     """
     ch = chainage
-    out: list[Finding] = []
     rating = np.broadcast_to(np.asarray(rating_head, dtype=float), ch.shape)
-    siphon_limit = None
-    if elevation is not None:
-        from ..hydraulics.water import atmospheric_pressure, density, vapour_pressure
-        rho_g = density(temperature_c) * G
-        # at most H_atm(z) - H_v(T) - a margin below atmospheric (standard atmosphere,
-        # ISO 2533:1975; vapour pressure, IAPWS-IF97; the margin is common practice)
-        siphon_limit = -((atmospheric_pressure(elevation) - vapour_pressure(temperature_c))
-                         / rho_g - criteria.siphon_margin_m)
+    siphon_limit = None if elevation is None else _siphon_limit(elevation, temperature_c, criteria)
+    out = _below_atmospheric(ch, pressure_head, siphon_limit, criteria)
+    out += _low_pressure(ch, pressure_head, flowing, criteria, surface_index)
+    out += _over_rating(ch, static_pressure_head, rating)
+    out += _velocity_out_of_range(ch, velocity, flowing, criteria)
+    return out
+
+
+def _siphon_limit(elevation: NDArray, temperature_c: float, criteria) -> NDArray:
+    """Lowest pressure head allowed in a siphon at each point: the vapour limit plus a margin [m].
+
+    Parameters
+    ----------
+    elevation : ndarray
+        Pipe elevation [m].
+    temperature_c : float
+        Water temperature [degC].
+    criteria : Criteria
+        For ``siphon_margin_m`` [m].
+
+    Returns
+    -------
+    ndarray
+        The limit, negative: H_atm(z) - H_v(T) less the margin, below atmospheric [m].
+    """
+    from ..hydraulics.water import atmospheric_pressure, density, vapour_pressure
+    rho_g = density(temperature_c) * G
+    # at most H_atm(z) - H_v(T) - a margin below atmospheric (standard atmosphere,
+    # ISO 2533:1975; vapour pressure, IAPWS-IF97; the margin is common practice)
+    return -((atmospheric_pressure(elevation) - vapour_pressure(temperature_c))
+             / rho_g - criteria.siphon_margin_m)
+
+
+def _below_atmospheric(ch: NDArray, pressure_head: NDArray, siphon_limit: NDArray | None,
+                       criteria) -> list[Finding]:
+    """Findings for stretches below atmospheric pressure at design flow: siphons or errors.
+
+    Parameters
+    ----------
+    ch : ndarray
+        Chainage [m].
+    pressure_head : ndarray
+        Pressure head at design flow [m].
+    siphon_limit : ndarray or None
+        Lowest pressure head a siphon can hold [m] (see :func:`_siphon_limit`); None
+        when the elevation is unknown.
+    criteria : Criteria
+        For ``allow_siphon`` and ``siphon_margin_m`` [m].
+
+    Returns
+    -------
+    list of Finding
+    """
+    out: list[Finding] = []
     for a, b in stretches(pressure_head < 0):
         worst = a + int(np.argmin(pressure_head[a:b + 1]))
         beyond = siphon_limit is not None and np.any(pressure_head[a:b + 1] < siphon_limit[a:b + 1])
@@ -131,6 +176,31 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
             "use a larger pipe upstream of this stretch, lower the line (deeper trench or "
             "another route), or move a break-pressure tank",
             float(ch[a]), float(ch[b])))
+    return out
+
+
+def _low_pressure(ch: NDArray, pressure_head: NDArray, flowing: NDArray, criteria,
+                  surface_index: tuple[int, ...]) -> list[Finding]:
+    """Warnings for flowing stretches with a pressure head between 0 and the minimum [m].
+
+    Parameters
+    ----------
+    ch : ndarray
+        Chainage [m].
+    pressure_head : ndarray
+        Pressure head at design flow [m].
+    flowing : ndarray of bool
+        Where the pipe carries flow at design conditions.
+    criteria : Criteria
+        For ``min_line_pressure_m`` [m].
+    surface_index : tuple of int
+        Points where a free surface feeds the line; a stretch starting there is skipped.
+
+    Returns
+    -------
+    list of Finding
+    """
+    out: list[Finding] = []
     low = (pressure_head >= 0) & (pressure_head < criteria.min_line_pressure_m) & flowing
     for a, b in stretches(low):
         if a in surface_index:
@@ -143,6 +213,26 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
             "given DEM error",
             "check the levels in the field; consider a larger pipe upstream",
             float(ch[a]), float(ch[b])))
+    return out
+
+
+def _over_rating(ch: NDArray, static_pressure_head: NDArray, rating: NDArray) -> list[Finding]:
+    """Errors for stretches whose static pressure head exceeds the pipe rating [m].
+
+    Parameters
+    ----------
+    ch : ndarray
+        Chainage [m].
+    static_pressure_head : ndarray
+        Pressure head with all outlets closed [m].
+    rating : ndarray
+        The pipe's (derated) pressure rating as head at each point [m].
+
+    Returns
+    -------
+    list of Finding
+    """
+    out: list[Finding] = []
     for a, b in stretches(static_pressure_head > rating + 1e-6):
         worst = a + int(np.argmax(static_pressure_head[a:b + 1]))
         out.append(Finding(
@@ -152,6 +242,29 @@ def check_line(*, chainage: NDArray, pressure_head: NDArray, static_pressure_hea
             f"{ch[worst]:,.0f} m): the pipe may burst when outlets close",
             "add a break-pressure tank upstream of this stretch or use a higher pressure class",
             float(ch[a]), float(ch[b])))
+    return out
+
+
+def _velocity_out_of_range(ch: NDArray, velocity: NDArray, flowing: NDArray,
+                           criteria) -> list[Finding]:
+    """Warnings for flowing stretches above the velocity maximum, then below the minimum [m/s].
+
+    Parameters
+    ----------
+    ch : ndarray
+        Chainage [m].
+    velocity : ndarray
+        Velocity of the pipe leaving each point [m/s].
+    flowing : ndarray of bool
+        Where the pipe carries flow at design conditions.
+    criteria : Criteria
+        For ``velocity_max_mps`` and ``velocity_min_mps`` [m/s].
+
+    Returns
+    -------
+    list of Finding
+    """
+    out: list[Finding] = []
     fast = (velocity > criteria.velocity_max_mps) & flowing
     for a, b in stretches(fast):
         out.append(Finding(

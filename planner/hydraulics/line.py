@@ -208,22 +208,10 @@ def line_energy(slope_length: NDArray, elevation: NDArray, flow: NDArray, pipe: 
     z = np.asarray(elevation, dtype=float)
     q = np.asarray(flow, dtype=float)
     n = s.size
-    if n < 2 or z.size != n or q.size != n - 1:
-        raise InputError(f"line_energy needs n >= 2 points and n - 1 flows; "
-                         f"got {n} lengths, {z.size} elevations, {q.size} flows")
-    if not surfaces or surfaces[0].index != 0:
-        raise InputError("the first free surface must be the source at point 0")
-    idx = np.array([f.index for f in surfaces])
-    if np.any(np.diff(idx) <= 0) or idx[-1] >= n - 1:
-        raise InputError("free surfaces must be in increasing order and before the line end")
+    idx = _surface_indices(n, z, q, surfaces)
     k = np.zeros(n) if point_k is None else np.asarray(point_k, dtype=float)
 
-    d = pipe.inside_diameter
-    dl = np.diff(s)
-    v_seg = fr.velocity(q, d)
-    hf_seg = fr.head_loss(q, d, dl, method=pipe.method, roughness=pipe.roughness,
-                          c_factor=pipe.c_factor, kinematic_viscosity=kinematic_viscosity)
-    re_seg = fr.reynolds(v_seg, d, kinematic_viscosity)
+    v_seg, hf_seg, re_seg = _segment_hydraulics(s, q, pipe, kinematic_viscosity)
     # velocity of the pipe leaving each point (the last point keeps its incoming pipe)
     v_pt = np.append(v_seg, v_seg[-1])
     hv_pt = fr.velocity_head(v_pt)
@@ -245,6 +233,113 @@ def line_energy(slope_length: NDArray, elevation: NDArray, flow: NDArray, pipe: 
     hgl = energy - hv_pt
     static_head = st[reach]
 
+    arrival, reaches = _reach_balances(idx, z, op, start_loss, v_seg, fitting_loss, cum_drop,
+                                       cum_friction)
+    return LineEnergy(
+        flow=np.append(q, q[-1]), velocity=v_pt, static_head=static_head, energy=energy,
+        hgl=hgl, pressure_head=hgl - z, static_pressure_head=static_head - z,
+        friction_loss=cum_friction, reynolds=np.append(re_seg, re_seg[-1]),
+        arrival_hgl=arrival, reaches=reaches,
+    )
+
+
+def _surface_indices(n: int, z: NDArray, q: NDArray, surfaces: list[FreeSurface]) -> NDArray:
+    """The profile points of the free surfaces, after checking the line's inputs agree.
+
+    Parameters
+    ----------
+    n : int
+        Number of profile points (of the slope lengths).
+    z : ndarray
+        Pipe elevation at each point [m].
+    q : ndarray
+        Flow in each segment [m^3/s].
+    surfaces : list of FreeSurface
+        The source and any break-pressure tanks.
+
+    Returns
+    -------
+    ndarray of int
+        Index of each free surface, increasing, the first 0.
+
+    Raises
+    ------
+    InputError
+        If the sizes disagree, or the surfaces do not start at the source, increase
+        and stop before the line end.
+    """
+    if n < 2 or z.size != n or q.size != n - 1:
+        raise InputError(f"line_energy needs n >= 2 points and n - 1 flows; "
+                         f"got {n} lengths, {z.size} elevations, {q.size} flows")
+    if not surfaces or surfaces[0].index != 0:
+        raise InputError("the first free surface must be the source at point 0")
+    idx = np.array([f.index for f in surfaces])
+    if np.any(np.diff(idx) <= 0) or idx[-1] >= n - 1:
+        raise InputError("free surfaces must be in increasing order and before the line end")
+    return idx
+
+
+def _segment_hydraulics(s: NDArray, q: NDArray, pipe: PipeHydraulics,
+                        kinematic_viscosity: float) -> tuple[NDArray, NDArray, NDArray]:
+    """Velocity [m/s], friction loss [m] and Reynolds number [-] of each segment.
+
+    Parameters
+    ----------
+    s : ndarray
+        Cumulative pipe length at each point [m].
+    q : ndarray
+        Flow in each segment [m^3/s].
+    pipe : PipeHydraulics
+        Diameter and friction law.
+    kinematic_viscosity : float
+        [m^2/s].
+
+    Returns
+    -------
+    v_seg, hf_seg, re_seg : ndarray
+        One value per segment.
+    """
+    d = pipe.inside_diameter
+    dl = np.diff(s)
+    v_seg = fr.velocity(q, d)
+    hf_seg = fr.head_loss(q, d, dl, method=pipe.method, roughness=pipe.roughness,
+                          c_factor=pipe.c_factor, kinematic_viscosity=kinematic_viscosity)
+    re_seg = fr.reynolds(v_seg, d, kinematic_viscosity)
+    return v_seg, hf_seg, re_seg
+
+
+def _reach_balances(idx: NDArray, z: NDArray, op: NDArray, start_loss: NDArray, v_seg: NDArray,
+                    fitting_loss: NDArray, cum_drop: NDArray, cum_friction: NDArray
+                    ) -> tuple[NDArray, tuple[ReachBalance, ...]]:
+    """The HGL arriving at each tank [m] and the energy balance of each reach.
+
+    Parameters
+    ----------
+    idx : ndarray of int
+        Profile point of each free surface.
+    z : ndarray
+        Pipe elevation at each point [m].
+    op : ndarray
+        Operating water level of each free surface [m].
+    start_loss : ndarray
+        Entrance and fitting loss where the pipe leaves each free surface [m].
+    v_seg : ndarray
+        Velocity in each segment [m/s].
+    fitting_loss : ndarray
+        Fitting loss at each point [m].
+    cum_drop : ndarray
+        Head lost from point 0 to each point, friction and fittings [m].
+    cum_friction : ndarray
+        Friction loss from point 0 to each point [m].
+
+    Returns
+    -------
+    arrival : ndarray
+        HGL arriving at each tank, before its free surface restarts the lines [m];
+        NaN elsewhere.
+    reaches : tuple of ReachBalance
+    """
+    n = z.size
     # what arrives at each tank, before the free surface restarts the lines
     arrival = np.full(n, np.nan)
     reaches = []
@@ -266,10 +361,4 @@ def line_energy(slope_length: NDArray, elevation: NDArray, flow: NDArray, pipe: 
             velocity_head=float(fr.velocity_head(v_in)),
             residual_pressure=float(hgl_in - z[b]),
         ))
-
-    return LineEnergy(
-        flow=np.append(q, q[-1]), velocity=v_pt, static_head=static_head, energy=energy,
-        hgl=hgl, pressure_head=hgl - z, static_pressure_head=static_head - z,
-        friction_loss=cum_friction, reynolds=np.append(re_seg, re_seg[-1]),
-        arrival_hgl=arrival, reaches=tuple(reaches),
-    )
+    return arrival, tuple(reaches)

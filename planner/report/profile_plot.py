@@ -90,15 +90,52 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
     prof, e = plan.profile, plan.energy
     km = prof.chainage_m / 1000.0
     lo, hi = window if window is not None else (0.0, prof.length_m)
+    inside, view = _window_points(prof, lo, hi)
+    base = float(np.nanmin(prof.pipe_m[inside])) - 20.0
+    _draw_ground_and_pipe(ax, axp, prof, km, view, base)
+    _draw_head_lines(ax, plan)
+    _draw_source_and_tanks(ax, plan, lo, hi)
+    _draw_outlets(ax, plan, lo, hi)
+    _draw_features(ax, plan, lo, hi)
+    top = max(float(np.nanmax(e.static_head[inside])), float(np.nanmax(e.hgl[inside]))) + 15.0
+    ax.set_ylim(base, top)
+    _class_band(ax, plan, km, base, top)
+    _finish_elevation_panel(ax, plan, lo, hi, title)
+    if axp is not None:
+        _draw_pressure_panel(axp, plan, km, view)
+    return vertical_exaggeration(ax, layout_fixed=layout_fixed)
+
+
+def _window_points(prof, lo: float, hi: float):
+    """The points inside a chainage window [m], and the slice to draw (one point beyond each end).
+
+    Parameters
+    ----------
+    prof : Profile
+    lo, hi : float
+        Chainage of the window's ends [m].
+
+    Returns
+    -------
+    inside : ndarray of bool
+        Points within the window.
+    view : slice
+        The points drawn: the window and one point beyond each end, so sheets draw fast.
+    """
     inside = (prof.chainage_m >= lo - 1e-6) & (prof.chainage_m <= hi + 1e-6)
     # draw only the window (and one point beyond each end), so sheets draw fast
     i0 = max(int(np.argmax(inside)) - 1, 0)
     i1 = min(int(prof.n - np.argmax(inside[::-1])) + 1, prof.n)
-    view = slice(i0, i1)
+    return inside, slice(i0, i1)
 
-    def in_window(c):
-        return lo - 1e-6 <= c <= hi + 1e-6
-    base = float(np.nanmin(prof.pipe_m[inside])) - 20.0
+
+def _in_window(c: float, lo: float, hi: float) -> bool:
+    """Whether chainage ``c`` lies in the window from ``lo`` to ``hi`` [m]."""
+    return lo - 1e-6 <= c <= hi + 1e-6
+
+
+def _draw_ground_and_pipe(ax, axp, prof, km, view: slice, base: float) -> None:
+    """Ground (filled down to ``base`` [m]), pipe, and the DEM voids bridged, hatched on both panels."""
     ax.fill_between(km[view], prof.ground_m[view], base, color="#d9cbb0", edgecolor="none",
                     label="ground")
     ax.plot(km[view], prof.ground_m[view], color="#6b5a3e", lw=1.0)
@@ -109,6 +146,10 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
         for axis in (ax, axp) if axp is not None else (ax,):
             axis.axvspan(v0, v1, facecolor="none", edgecolor="#b00000", hatch="///", lw=0.0,
                          label="DEM void, ground bridged" if n == 0 and axis is ax else None)
+
+
+def _draw_head_lines(ax, plan: Plan) -> None:
+    """The static head line and the hydraulic grade line of each reach [m] (x in km)."""
     first = True
     for x, y, static in _hgl_segments(plan):
         ax.plot(x / 1000.0, np.full(x.size, static), color="#1f4e9c", lw=1.2, ls="--",
@@ -116,19 +157,28 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
         ax.plot(x / 1000.0, y, color="#c0392b", lw=1.8, ls="-",
                 label="hydraulic grade line (design flow)" if first else None)
         first = False
-    if in_window(0.0):
+
+
+def _draw_source_and_tanks(ax, plan: Plan, lo: float, hi: float) -> None:
+    """The source's top water level and each tank's water level [m], within the window [m]."""
+    if _in_window(0.0, lo, hi):
         ax.plot([0], [plan.source_top_level_m], marker="v", ms=10, color="#1f4e9c", ls="none",
                 label=plan.scenario.source.name)
     for t in plan.tanks:
-        if not in_window(t.chainage_m):
+        if not _in_window(t.chainage_m, lo, hi):
             continue
         c = t.chainage_m / 1000.0
         ax.plot([c], [t.water_level_m], marker="s", ms=9, mfc="white", mec="black", ls="none")
         ax.annotate(f"{t.name}\nch {t.chainage_m:,.0f} m, WL {t.water_level_m:.1f} m", (c, t.water_level_m),
                     xytext=(6, 14), textcoords="offset points", fontsize=8,
                     bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.8))
+
+
+def _draw_outlets(ax, plan: Plan, lo: float, hi: float) -> None:
+    """Each outlet within the window [m], labelled with its flow [L/s] and residual pressure [m]."""
+    prof = plan.profile
     for o in plan.outlets:
-        if not in_window(o.chainage_m):
+        if not _in_window(o.chainage_m, lo, hi):
             continue
         c = o.chainage_m / 1000.0
         z = prof.pipe_m[o.index]
@@ -138,18 +188,23 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
                     (c, z), xytext=(-8, 12) if near_end else (8, -34), textcoords="offset points",
                     fontsize=8, ha="right" if near_end else "left",
                     bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.8))
+
+
+def _draw_features(ax, plan: Plan, lo: float, hi: float) -> None:
+    """Air valves and washouts within the window [m], at the pipe elevation [m]."""
     marks = {"air_valve": ("^", "white", "air valve"), "washout": ("v", "#555555", "washout")}
     shown = set()
     for f in plan.features:
-        if not in_window(f.chainage_m):
+        if not _in_window(f.chainage_m, lo, hi):
             continue
         marker, colour, label = marks.get(f.kind, ("x", "black", f.kind))
         ax.plot([f.chainage_m / 1000.0], [f.elevation_m], marker=marker, ms=7, mfc=colour,
                 mec="black", ls="none", label=None if f.kind in shown else label)
         shown.add(f.kind)
-    top = max(float(np.nanmax(e.static_head[inside])), float(np.nanmax(e.hgl[inside]))) + 15.0
-    ax.set_ylim(base, top)
-    _class_band(ax, plan, km, base, top)
+
+
+def _finish_elevation_panel(ax, plan: Plan, lo: float, hi: float, title: bool) -> None:
+    """Label, grid, legend, x limits of the window [m, drawn in km] and title of the elevation panel."""
     ax.set_ylabel("elevation [m]")
     ax.grid(True, color="#cccccc", lw=0.5)
     handles, labels = ax.get_legend_handles_labels()
@@ -164,21 +219,22 @@ def draw_panels(ax, axp, plan: Plan, window: tuple[float, float] | None = None, 
         ax.set_title(f"{sc.project.name}\n{pipes}, design flow {plan.total_flow_m3s * 1e3:.2f} L/s",
                      fontsize=11, loc="left")
 
-    if axp is not None:
-        axp.plot(km[view], e.pressure_head[view], color="#c0392b", lw=1.5,
-                 label="pressure head, design flow")
-        axp.plot(km[view], e.static_pressure_head[view], color="#1f4e9c", lw=1.2, ls="--",
-                 label="static pressure head (outlets closed)")
-        axp.plot(km[view], plan.rating_head_m[view], color="black", lw=1.0, ls="-.",
-                 drawstyle="steps-post",
-                 label="pipe rating (derated), as head")
-        axp.axhline(0.0, color="#888888", lw=0.8)
-        axp.set_ylabel("pressure head [m]")
-        axp.set_xlabel("chainage [km]")
-        axp.grid(True, color="#cccccc", lw=0.5)
-        axp.legend(loc="upper left", fontsize=8, framealpha=0.9)
 
-    return vertical_exaggeration(ax, layout_fixed=layout_fixed)
+def _draw_pressure_panel(axp, plan: Plan, km, view: slice) -> None:
+    """The pressure panel: pressure head at design flow and static, against the rating [m]."""
+    e = plan.energy
+    axp.plot(km[view], e.pressure_head[view], color="#c0392b", lw=1.5,
+             label="pressure head, design flow")
+    axp.plot(km[view], e.static_pressure_head[view], color="#1f4e9c", lw=1.2, ls="--",
+             label="static pressure head (outlets closed)")
+    axp.plot(km[view], plan.rating_head_m[view], color="black", lw=1.0, ls="-.",
+             drawstyle="steps-post",
+             label="pipe rating (derated), as head")
+    axp.axhline(0.0, color="#888888", lw=0.8)
+    axp.set_ylabel("pressure head [m]")
+    axp.set_xlabel("chainage [km]")
+    axp.grid(True, color="#cccccc", lw=0.5)
+    axp.legend(loc="upper left", fontsize=8, framealpha=0.9)
 
 
 def axes_size_in(ax, *, layout_fixed: bool = False) -> tuple[float, float]:
