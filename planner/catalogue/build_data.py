@@ -14,6 +14,7 @@ import csv
 import math
 from pathlib import Path
 
+from .materials import PE_COIL_MAX_MM, PVC_SOLVENT_MAX_MM, columns_from_material
 from .standards import (DESIGN_COEFFICIENT, MRS_MPA, nominal_pressure, pvc_design_coefficient,
                         wall_from_sdr)
 
@@ -57,7 +58,8 @@ GI_RATING_BAR = 20.0
 
 COLUMNS = ("material", "label", "nominal_size", "outside_diameter_mm", "wall_mm",
            "inside_diameter_mm", "sdr", "pressure_rating_bar", "roughness_mm",
-           "hazen_williams_c", "elastic_modulus_gpa", "cost_per_m", "dimension_source")
+           "hazen_williams_c", "elastic_modulus_gpa", "cost_per_m", "dimension_source",
+           "derating", "jointing")
 
 
 def _hydraulic_id(od: float, e: float) -> float:
@@ -87,6 +89,15 @@ def _write(name: str, header: list[str], rows: list[dict]) -> Path:
     return path
 
 
+def _columns(material: str, od: float) -> dict[str, str]:
+    """The row's ``derating`` and ``jointing``: the house rule for the material name."""
+    derating, jointing = columns_from_material(material, od)
+    return dict(derating=derating, jointing=jointing)
+
+
+DERATING_NOTE = ("derating: the temperature derating family whose table applies "
+                 "(planner/catalogue/standards.py, with its sources); jointing: how the bill of "
+                 "quantities counts joints (planner/report/quantities.py).")
 PRICE_NOTE = ("cost_per_m: INVENTED DEMO PRICES (a smooth function of pipe mass), not market "
               "prices; replace this column with your supplier's prices")
 
@@ -108,7 +119,7 @@ def build_pe(material: str) -> Path:
                              roughness_mm=0.007, hazen_williams_c=150,
                              elastic_modulus_gpa=modulus,
                              cost_per_m=_price(od, idia, 955.0, 2.1, 0.3),
-                             dimension_source=source))
+                             dimension_source=source, **_columns(material, od)))
     header = [
         f"{material} pressure pipe for water, ISO 4427-2:2019 / EN 12201-2 dimensions.",
         "wall_mm: minimum wall e_min of the standard's table; dimension_source 'memory' rows "
@@ -119,6 +130,8 @@ def build_pe(material: str) -> Path:
         "roughness_mm 0.007 (common practice, allows for joints and biofilm); Hazen-Williams C 150.",
         f"elastic_modulus_gpa: short-term E for surge, {modulus:g} GPa "
         + ("(PE100 0.75-1.25 GPa, VESBO brochure)" if material == "PE100" else "(from memory)"),
+        DERATING_NOTE + f" PE: ISO 4427-1 Annex A; electrofusion up to {PE_COIL_MAX_MM:g} mm "
+        "(100 m coils), butt-fusion above (12 m lengths), common practice.",
         PRICE_NOTE,
     ]
     return _write(f"{material.lower()}.csv", header, rows)
@@ -142,7 +155,7 @@ def build_pvc() -> Path:
                              pressure_rating_bar=float(pn), roughness_mm=0.007,
                              hazen_williams_c=150, elastic_modulus_gpa=3.0,
                              cost_per_m=_price(od, idia, 1400.0, 1.6, 0.4),
-                             dimension_source=source))
+                             dimension_source=source, **_columns("PVC-U", od)))
     header = [
         "PVC-U pressure pipe for water, ISO 1452-2:2009 series (SDR per PN and size from memory).",
         "pressure_rating_bar: the series PN at up to 25 degC, PN = 10 sigma_s / S with "
@@ -150,6 +163,8 @@ def build_pvc() -> Path:
         "wall_mm: the ISO 4065 dimension table shared with PE where known, else OD/SDR rounded up.",
         "inside_diameter_mm: OD - 2 (1.05 e_min + 0.1) (common practice).",
         "roughness_mm 0.007, Hazen-Williams C 150 (common practice); E = 3.0 GPa for surge.",
+        DERATING_NOTE + f" PVC: ISO 1452-2 Fig. A.1; solvent-cement sockets up to "
+        f"{PVC_SOLVENT_MAX_MM:g} mm, rubber-ring sockets above (6 m lengths), common practice.",
         PRICE_NOTE,
     ]
     return _write("pvc-u.csv", header, rows)
@@ -165,13 +180,16 @@ def build_gi() -> Path:
                          pressure_rating_bar=GI_RATING_BAR, roughness_mm=0.15,
                          hazen_williams_c=120, elastic_modulus_gpa=207.0,
                          cost_per_m=_price(od, idia, 7850.0, 1.4, 1.0),
-                         dimension_source="table" if dn not in (65, 80) else "memory"))
+                         dimension_source="table" if dn not in (65, 80) else "memory",
+                         **_columns("GI", od)))
     header = [
         "Galvanised steel tube, medium series, ISO 65 / EN 10255 M (formerly BS 1387 medium).",
         "Walls for 1/2 to 2 in and 4 in from the EN 10255 table; 2 1/2 and 3 in from memory.",
         f"pressure_rating_bar: {GI_RATING_BAR:g} bar for screwed joints in water service, "
         "from memory: the fittings govern; check the maker's rating.",
         "roughness_mm 0.15 (galvanised, Binder 1973 via efunda); Hazen-Williams C 120; E 207 GPa.",
+        DERATING_NOTE + " STEEL: no derating at water-supply temperatures; threaded (screwed "
+        "sockets, 6 m lengths).",
         PRICE_NOTE,
     ]
     return _write("gi-medium.csv", header, rows)

@@ -1,7 +1,10 @@
 """Pipe options: loading, validating and filtering catalogues.
 
 A catalogue is a CSV file (columns as in the built-in files under ``data/``, with
-``#`` comment lines naming the standard).  Built-in catalogues are addressed by name
+``#`` comment lines naming the standard).  Its optional ``derating`` and ``jointing``
+columns say how each pipe derates with temperature and how it is jointed; where a file
+has not got them, or a cell is empty, they follow from the material name
+(:func:`~planner.catalogue.materials.columns_from_material`).  Built-in catalogues are addressed by name
 (``pe100``, ``pe80``, ``pvc-u``, ``gi-medium``); any other value is read as a path.
 Values are converted to SI on loading.
 """
@@ -9,11 +12,14 @@ Values are converted to SI on loading.
 from __future__ import annotations
 
 import csv
+import math
 from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import InputError, InputFileError
 from ..units import BAR, MM
+from .materials import JOINTINGS, columns_from_material
+from .standards import DERATING_FAMILIES
 
 DATA = Path(__file__).resolve().parent / "data"
 BUILTIN = {"pe100": "pe100.csv", "pe80": "pe80.csv", "pvc-u": "pvc-u.csv",
@@ -48,6 +54,15 @@ class PipeOption:
         Standard dimension ratio [-] (NaN for steel).
     catalogue : str
         Where it came from.
+    derating : str
+        Temperature derating family, a key of the tables in
+        :mod:`planner.catalogue.standards` (``"PE"``, ``"PVC"``, ``"STEEL"``), or ``""``
+        if not known (refused above 20 degC).
+    jointing : str
+        How it is jointed, one of :data:`~planner.catalogue.materials.JOINTINGS`; the
+        bill of quantities lists its joints by this.
+
+    Left empty, ``derating`` and ``jointing`` are taken from the material name and size.
     """
 
     material: str
@@ -62,6 +77,19 @@ class PipeOption:
     cost_per_m: float
     sdr: float = float("nan")
     catalogue: str = ""
+    derating: str = ""
+    jointing: str = ""
+
+    def __post_init__(self) -> None:
+        if not (self.derating and self.jointing):
+            size = self.outside_diameter if math.isfinite(self.outside_diameter) \
+                else self.inside_diameter
+            derating, jointing = columns_from_material(self.material, size / MM)
+            object.__setattr__(self, "derating", self.derating or derating)
+            object.__setattr__(self, "jointing", self.jointing or jointing)
+        if self.derating not in ("", *DERATING_FAMILIES) or self.jointing not in JOINTINGS:
+            raise ValueError(f"{self.label}: derating {self.derating!r} or jointing "
+                             f"{self.jointing!r} is not one of {DERATING_FAMILIES} / {JOINTINGS}")
 
 
 def _number(row: dict, key: str, where: str, *, positive=True, default=None) -> float:
@@ -76,6 +104,17 @@ def _number(row: dict, key: str, where: str, *, positive=True, default=None) -> 
         raise InputFileError(f"{where}: column {key!r} is not a number ({text!r})") from None
     if positive and not value > 0:
         raise InputFileError(f"{where}: column {key!r} must be positive, got {value:g}")
+    return value
+
+
+def _choice(row: dict, key: str, allowed: tuple[str, ...], where: str, *, upper: bool) -> str:
+    """The value of an optional column of named values, ``""`` where absent or empty."""
+    text = (row.get(key) or "").strip()
+    value = text.upper() if upper else text.lower()
+    if value and value not in allowed:
+        raise InputFileError(f"{where}: column {key!r} is {text!r}, which is not one of "
+                             f"{', '.join(allowed)} (or leave it empty to take it from the "
+                             "material name)")
     return value
 
 
@@ -130,7 +169,9 @@ def load_catalogue(name_or_path: str | Path) -> list[PipeOption]:
                                     default=float("nan")) * 1e9,
             cost_per_m=_number(row, "cost_per_m", where, positive=False),
             sdr=_number(row, "sdr", where, default=float("nan")),
-            catalogue=path.name))
+            catalogue=path.name,
+            derating=_choice(row, "derating", DERATING_FAMILIES, where, upper=True),
+            jointing=_choice(row, "jointing", JOINTINGS, where, upper=False)))
     if not options:
         raise InputFileError(f"{path}: the catalogue has no rows")
     return options

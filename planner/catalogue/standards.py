@@ -8,8 +8,14 @@ standard before a design is built on them.
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 import numpy as np
+
+from .materials import columns_from_material
+
+if TYPE_CHECKING:                         # the type only: pipes imports this module
+    from .pipes import PipeOption
 
 #: Minimum required strength MRS at 50 years, 20 degC [MPa] (ISO 9080 / ISO 12162).
 MRS_MPA = {"PE100": 10.0, "PE80": 8.0, "PVC-U": 25.0}
@@ -62,7 +68,8 @@ def nominal_pressure(sdr: float, mrs_mpa: float, design_coefficient: float) -> f
     return float(listed[-1]) if listed else float("nan")
 
 
-# (temperature degC, factor) pairs; linear in between; 1.0 below the first.
+# The derating table of each family, keyed by the family name a catalogue's ``derating``
+# column gives: (temperature degC, factor) pairs; linear in between; 1.0 below the first.
 _DERATING = {
     # ISO 4427-1:2019 / EN 12201-1 Annex A, from memory (1.00 / 0.87 / 0.74)
     "PE": ((20.0, 1.00), (30.0, 0.87), (40.0, 0.74)),
@@ -73,40 +80,33 @@ _DERATING = {
 }
 
 
-#: Material names (upper case, or their start) of each derating family.
-_FAMILY_NAMES = {"PE": ("PE", "HDPE", "MDPE", "LDPE"), "PVC": ("PVC",),
-                 "STEEL": ("GI", "GS", "STEEL", "GALV", "DI", "DUCTILE")}
+#: The derating families, the values of a catalogue's ``derating`` column.
+DERATING_FAMILIES = tuple(_DERATING)
 
 
-def derating_family(material: str) -> str:
-    """``"PE"``, ``"PVC"`` or ``"STEEL"`` for a catalogue material name.
-
-    Raises ValueError for a material of none of these families (PP-R, GRP, ...), whose
-    derating gravplan does not know: it is never guessed.
-
-    Examples
-    --------
-    >>> derating_family("HDPE"), derating_family("PVC-U"), derating_family("GI")
-    ('PE', 'PVC', 'STEEL')
-    """
-    m = material.upper().replace(" ", "")
-    if "PVC" in m:
-        return "PVC"
-    for family, names in _FAMILY_NAMES.items():
-        if any(m.startswith(n) for n in names) and not m.startswith(("PP", "PERT", "PE-RT", "PEX")):
-            return family
-    raise ValueError(f"the temperature derating of material {material!r} is not known "
-                     "(gravplan knows PE, PVC and steel): above 20 degC it is needed; enter the "
-                     "derated rating in the catalogue and keep the pipe temperature at 20 degC "
-                     "or below")
-
-
-def temperature_factor(material: str, temperature_c: float) -> float:
+def temperature_factor(pipe: PipeOption | str, temperature_c: float) -> float:
     """Factor on the 20 degC pressure rating at a wall temperature [-].
 
-    Ratings are stated at 20 degC, so the factor there and below is 1 for any material.
-    Raises ValueError above the last tabulated temperature (the pipe is not rated there)
-    and, above 20 degC, for a material whose derating is not known.
+    Parameters
+    ----------
+    pipe : PipeOption or str
+        A catalogue option, whose ``derating`` column names the table; or a bare
+        material name, read as a catalogue row without that column would be
+        (:func:`~planner.catalogue.materials.columns_from_material`).
+    temperature_c : float
+        Wall temperature [degC].
+
+    Returns
+    -------
+    float
+        Ratings are stated at 20 degC, so the factor there and below is 1 for any
+        material; above, the family's table, linear in between.
+
+    Raises
+    ------
+    ValueError
+        Above the last tabulated temperature (the pipe is not rated there) and, above
+        20 degC, for a pipe of no known derating family.
 
     Examples
     --------
@@ -117,7 +117,17 @@ def temperature_factor(material: str, temperature_c: float) -> float:
     """
     if temperature_c <= 20.0:
         return 1.0
-    table = _DERATING[derating_family(material)]
+    if isinstance(pipe, str):
+        material, family = pipe, columns_from_material(pipe)[0]
+    else:
+        material, family = pipe.material, pipe.derating
+    if family not in _DERATING:
+        raise ValueError(f"the temperature derating of material {material!r} is not known "
+                         f"(gravplan knows {', '.join(DERATING_FAMILIES)}): above 20 degC it is "
+                         "needed; name the family whose table applies in the catalogue's "
+                         "'derating' column, or enter the derated rating in the catalogue and "
+                         "keep the pipe temperature at 20 degC or below")
+    table = _DERATING[family]
     t = np.array([p[0] for p in table])
     f = np.array([p[1] for p in table])
     if temperature_c > t[-1] + 1e-9:

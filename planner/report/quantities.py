@@ -1,8 +1,9 @@
 """Bill of quantities: pipe by material, size and class, valves, tanks and fittings.
 
 Reads results only.  Pipe lengths are the pipe's own (3-D) lengths, with a waste
-allowance, rounded up to whole pipe lengths or coils; valves and tanks are counted
-from the plan's features, fittings from its size changes and junctions.  Unit costs
+allowance, rounded up to whole pipe lengths or coils; joints follow each pipe's
+catalogue ``jointing`` (:data:`JOINTING`); valves and tanks are counted from the plan's
+features, fittings from its size changes and junctions.  Unit costs
 come from the catalogue (pipe) and ``catalogue/data/items.csv`` (the rest); the
 built-in prices are invented demo values.  Written as CSV and as XLSX (openpyxl).
 """
@@ -15,6 +16,7 @@ import math
 from dataclasses import dataclass
 from pathlib import Path
 
+from ..catalogue.materials import JOINTINGS
 from .files import atomic_path, write_text
 
 ITEMS = Path(__file__).resolve().parent.parent / "catalogue" / "data" / "items.csv"
@@ -22,16 +24,54 @@ ITEMS = Path(__file__).resolve().parent.parent / "catalogue" / "data" / "items.c
 WASTE = 0.03
 
 
-def supply_length(material: str, outside_diameter_mm: float) -> tuple[float, str]:
-    """How a pipe is sold: the supply length [m] and its description.
+@dataclass(frozen=True)
+class Jointing:
+    """What the bill makes of one catalogue ``jointing`` key.
 
-    PE up to 110 mm comes in 100 m coils, larger PE in 12 m lengths, PVC-U and steel in
-    6 m lengths (common practice; check your supplier).
+    Attributes
+    ----------
+    coil_up_to_mm : float
+        Sold in 100 m coils up to this outside diameter [mm] (0: never).
+    length_m : float
+        Else in straight lengths of this [m].
+    joint : str
+        The joint listed, one per length or coil bought (an item of ``items.csv``,
+        priced by the pipe's outside diameter); ``""`` lists none.
     """
-    m = material.upper()
-    if m.startswith("PE"):
-        return (100.0, "coil of 100 m") if outside_diameter_mm <= 110 else (12.0, "12 m length")
-    return 6.0, "6 m length"
+
+    coil_up_to_mm: float
+    length_m: float
+    joint: str
+
+
+#: How a pipe of each jointing is sold and joined (common practice; check your supplier):
+#: electrofusion-jointed PE in 100 m coils up to 110 mm, 12 m lengths above; butt-fused PE
+#: in 12 m lengths; PVC-U (solvent-cement or rubber-ring sockets) and steel (screwed
+#: sockets) in 6 m lengths; other jointing in 6 m lengths, joints not counted.
+JOINTING = {
+    "electrofusion": Jointing(110.0, 12.0, "electrofusion coupler"),
+    "butt-fusion": Jointing(0.0, 12.0, "butt-fusion weld"),
+    "solvent": Jointing(0.0, 6.0, "solvent-cement joint"),
+    "rubber-ring": Jointing(0.0, 6.0, "rubber-ring joint"),
+    "threaded": Jointing(0.0, 6.0, "threaded socket"),
+    "other": Jointing(0.0, 6.0, ""),
+}
+if set(JOINTING) != set(JOINTINGS):                  # the catalogue's keys, every one read here
+    raise AssertionError(f"JOINTING keys {sorted(JOINTING)} differ from JOINTINGS {JOINTINGS}")
+
+
+def supply_length(jointing: str, outside_diameter_mm: float) -> tuple[float, str]:
+    """How a pipe of this catalogue ``jointing`` is sold: the supply length [m] and its description.
+
+    Examples
+    --------
+    >>> supply_length("electrofusion", 110), supply_length("butt-fusion", 160)
+    ((100.0, 'coil of 100 m'), (12.0, '12 m length'))
+    """
+    j = JOINTING[jointing]
+    if outside_diameter_mm <= j.coil_up_to_mm:
+        return 100.0, "coil of 100 m"
+    return j.length_m, f"{j.length_m:g} m length"
 
 
 @dataclass(frozen=True)
@@ -65,6 +105,33 @@ def _cost(costs, item, size):
     return costs[(item, fits[0] if fits else sizes[-1])]
 
 
+def _pipe_lines(plans, costs, waste: float) -> list[Line]:
+    """The pipe lines of the bill, by option, and their joints, by joint and size."""
+    pipes: dict[str, list] = {}
+    for pl in plans:
+        for st in pl.stretches:
+            key = st.option.label
+            entry = pipes.setdefault(key, [st.option, 0.0])
+            entry[1] += st.length_m
+    lines: list[Line] = []
+    joints: dict[tuple[str, float], int] = {}
+    for label, (opt, length) in sorted(pipes.items(), key=lambda kv: (kv[1][0].material,
+                                                                      kv[1][0].outside_diameter,
+                                                                      kv[1][0].rating)):
+        od = opt.outside_diameter * 1e3 if math.isfinite(opt.outside_diameter) else opt.inside_diameter * 1e3
+        unit_len, unit = supply_length(opt.jointing, od)
+        n = math.ceil(length * (1 + waste) / unit_len - 1e-9)
+        lines.append(Line("pipe", f"{label}: {length:,.1f} m laid + {waste * 100:g} % = {n} x {unit}",
+                          n * unit_len, "m", opt.cost_per_m))
+        joint = JOINTING[opt.jointing].joint
+        if joint:
+            joints[(joint, od)] = joints.get((joint, od), 0) + n
+    for (joint, od), n in sorted(joints.items()):
+        lines.append(Line(joint, f"{joint} for {od:g} mm pipe, one per length or coil bought",
+                          float(n), "each", _cost(costs, joint, od)))
+    return lines
+
+
 def bill(plans, *, junctions: int = 0, waste: float = WASTE) -> list[Line]:
     """The bill of quantities of one line plan, or of the link plans of a tree.
 
@@ -78,21 +145,7 @@ def bill(plans, *, junctions: int = 0, waste: float = WASTE) -> list[Line]:
     """
     plans = list(plans) if isinstance(plans, (list, tuple)) else [plans]
     costs = _item_costs()
-    lines: list[Line] = []
-    pipes: dict[str, list] = {}
-    for pl in plans:
-        for st in pl.stretches:
-            key = st.option.label
-            entry = pipes.setdefault(key, [st.option, 0.0])
-            entry[1] += st.length_m
-    for label, (opt, length) in sorted(pipes.items(), key=lambda kv: (kv[1][0].material,
-                                                                      kv[1][0].outside_diameter,
-                                                                      kv[1][0].rating)):
-        od = opt.outside_diameter * 1e3 if math.isfinite(opt.outside_diameter) else opt.inside_diameter * 1e3
-        unit_len, unit = supply_length(opt.material, od)
-        n = math.ceil(length * (1 + waste) / unit_len - 1e-9)
-        lines.append(Line("pipe", f"{label}: {length:,.1f} m laid + {waste * 100:g} % = {n} x {unit}",
-                          n * unit_len, "m", opt.cost_per_m))
+    lines = _pipe_lines(plans, costs, waste)
     counts: dict[tuple[str, float], int] = {}
     for pl in plans:
         for f in pl.features:
