@@ -11,7 +11,7 @@ import click
 
 from .cautions import SHORT_CAUTION
 from .errors import PlannerError
-from .geo.profile import DEFAULT_COVER_M, DEFAULT_MAX_VOID_M
+from .scenario.keys import default
 
 DEMO_SCENARIO = Path(__file__).resolve().parent.parent / "demo_terrain" / "scenario.toml"
 
@@ -67,9 +67,9 @@ def main(verbose):
               help="DEM file (GeoTIFF, VRT, ...); repeat for several tiles.")
 @click.option("--spacing", type=float, default=None,
               help="Largest point spacing [m]; default the DEM cell size.")
-@click.option("--cover", type=float, default=DEFAULT_COVER_M, show_default=True,
+@click.option("--cover", type=float, default=default("criteria", "cover_m"), show_default=True,
               help="Cover over the pipe [m].")
-@click.option("--max-void", type=float, default=DEFAULT_MAX_VOID_M, show_default=True,
+@click.option("--max-void", type=float, default=default("terrain", "max_void_m"), show_default=True,
               help="Longest DEM void bridged along the line [m].")
 @click.option("--out", type=click.Path(dir_okay=False, path_type=Path), default=None,
               help="Write the profile as CSV here (default: standard output).")

@@ -63,8 +63,8 @@ def test_every_problem_is_reported_with_its_key(tmp_path):
     text = str(info.value)
     for expected in ["pipe.rating_bar: must be > 0", "pipe.colour: unknown key",
                      "outlets[1].flow_lps: must be > 0",
-                     "criteria.friction: unknown method 'manning'; choose one of colebrook, "
-                     "hazen-williams", "criteria.temperature_c"]:
+                     "criteria.friction: expected one of colebrook, hazen-williams, got "
+                     "'manning'", "criteria.temperature_c"]:
         assert expected in text
     assert "5 problem(s)" in text
 

@@ -26,6 +26,10 @@ TAP_FLOW = 7.5e-3 / 60.0
 SCHOOL_LPD = 5.0
 #: Health post in-patient water use [L/bed/day] (WHO health-care standards 40-60: from memory).
 CLINIC_LPD = 50.0
+#: Hours over which a day school and a health post draw their day's water [h] (common
+#: practice: the opening hours).
+SCHOOL_HOURS = 8.0
+CLINIC_HOURS = 12.0
 
 
 #: A rural day of water use in 24 hourly shares, with morning and evening peaks and
@@ -83,7 +87,7 @@ def tap_stand_flow(taps: int, *, tap_flow: float = TAP_FLOW, use_factor: float =
     return float(taps * tap_flow * use_factor)
 
 
-def institution_flow(count: float, litres_per_day: float, *, hours: float = 8.0) -> float:
+def institution_flow(count: float, litres_per_day: float, *, hours: float = SCHOOL_HOURS) -> float:
     """A school or clinic drawing its daily need over ``hours`` of use [m^3/s].
 
     Examples
@@ -164,3 +168,35 @@ def balancing_storage(demand_pattern: NDArray, daily_demand: float, supply: floa
     inflow *= daily_demand / inflow.sum()
     surplus = np.concatenate([[0.0], np.cumsum(inflow - used)])
     return float(surplus.max() - surplus.min())
+
+
+def from_table(kind: str, vals: dict[str, float]) -> tuple[float, str, float | None]:
+    """Design flow [m^3/s], basis in words, and day's volume [m^3] of a demand table.
+
+    ``kind`` and its keys, defaults filled in (:data:`planner.scenario.keys.DEMAND_KEYS`);
+    the volume is None for taps.
+    """
+    if kind == "domestic":
+        q = domestic_flow(vals["population"], vals["per_capita_lpd"],
+                          peak_factor=vals["peak_factor"], growth_rate=vals["growth_rate"],
+                          horizon_years=vals["horizon_years"])
+        people = future_population(vals["population"], vals["growth_rate"], vals["horizon_years"])
+        return q, (f"{people:,.0f} people in {vals['horizon_years']:g} years x "
+                   f"{vals['per_capita_lpd']:g} L/day x peak factor {vals['peak_factor']:g}"), \
+            people * vals["per_capita_lpd"] * 1e-3
+    if kind == "taps":
+        q = tap_stand_flow(int(vals["taps"]), tap_flow=vals["tap_flow_lpm"] * 1e-3 / 60,
+                           use_factor=vals["use_factor"])
+        return q, (f"{vals['taps']:g} taps x {vals['tap_flow_lpm']:g} L/min x use factor "
+                   f"{vals['use_factor']:g}"), None
+    if kind in ("school", "clinic"):
+        count = vals["pupils" if kind == "school" else "beds"]
+        q = institution_flow(count, vals["litres_per_day"], hours=vals["hours"])
+        return q, (f"{count:g} {'pupils' if kind == 'school' else 'beds'} x "
+                   f"{vals['litres_per_day']:g} L/day over {vals['hours']:g} h"), \
+            count * vals["litres_per_day"] * 1e-3
+    q = irrigation_flow(vals["area_ha"], vals["crop_water_mm_per_day"],
+                        efficiency=vals["efficiency"], hours_per_day=vals["hours_per_day"])
+    return q, (f"{vals['area_ha']:g} ha x {vals['crop_water_mm_per_day']:g} mm/day / "
+               f"efficiency {vals['efficiency']:g} over {vals['hours_per_day']:g} h/day"), \
+        q * vals["hours_per_day"] * 3600.0

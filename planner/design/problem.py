@@ -25,7 +25,7 @@ from ..hydraulics import friction as fr
 from ..hydraulics import surge as sg
 from ..hydraulics.line import FreeSurface, PipeHydraulics, segment_flows
 from ..hydraulics.network import LinkData, tree_energy
-from ..units import G
+from ..units import MM, G
 from .explain import explain_infeasible
 from .results import Stretch
 from .sizing import SizingInfeasible, SizingProblem, SizingResult, solve_sizing
@@ -88,14 +88,15 @@ def pipe_options(sc: Scenario, rho: float) -> tuple[list[PipeOption], NDArray[np
     if sc.design is not None:
         d = sc.design
         try:
-            options = load_options(d.catalogues, materials=d.materials, min_od_mm=d.min_size_mm,
-                                   max_od_mm=d.max_size_mm)
+            options = load_options(d.catalogues, materials=d.materials,
+                                   min_od_mm=None if d.min_size_m is None else d.min_size_m / MM,
+                                   max_od_mm=None if d.max_size_m is None else d.max_size_m / MM)
         except PlannerError as exc:
             raise type(exc)(f"{sc.path.name}, design.catalogues: {exc}") from None
     else:
         options = [given_pipe(sc)]
     try:
-        factors = np.array([temperature_factor(o.material, cr.wall_temperature_c) for o in options])
+        factors = np.array([temperature_factor(o, cr.wall_temperature_c) for o in options])
     except ValueError as exc:
         raise InputError(f"criteria.pipe_temperature_c: {exc}") from None
     return options, np.array([o.rating for o in options]) * factors / (rho * G)

@@ -22,10 +22,8 @@ import numpy as np
 
 from ..cautions import CAUTIONS
 from .files import atomic_path
+from .paper import SHEETS
 from .profile_plot import axes_size_in, draw_panels
-
-#: Sheet sizes, landscape [mm] (ISO 216).
-SHEETS = {"A4": (297, 210), "A3": (420, 297), "A2": (594, 420), "A1": (841, 594)}
 
 
 def windows(length_m: float, km_per_sheet: float) -> list[tuple[float, float]]:
