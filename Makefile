@@ -29,7 +29,10 @@ chromium:
 	    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; \
 	  else echo "the browser tests need chromium: sudo apt-get install chromium"; exit 1; fi; }
 
+# lint and types first (seconds), then the suite
 test: $(STAMP) chromium
+	$(BIN)/ruff check --quiet
+	$(BIN)/mypy
 	$(BIN)/python -m pytest -q
 
 bench: $(STAMP)

@@ -4,7 +4,7 @@ The public API lives in :mod:`planner.api`; its main entry points are importable
 from the package itself, e.g. ``planner.sample_profile(route, dem)``.
 """
 
-__version__ = "0.1.0"
+from .version import VERSION as __version__  # noqa: F401 (the package's version)
 
 _API = ("load_scenario", "read_route", "sample_profile", "profile_from_survey",
         "build_profile", "plan", "write_outputs")
