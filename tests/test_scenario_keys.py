@@ -87,3 +87,12 @@ def test_split_spacing_zero_is_allowed_as_documented(tmp_path):
     data["design"] = {"split_spacing_m": 0}
     sc = scenario_from_dict(data, tmp_path / "s.toml")
     assert sc.design.split_spacing_m == 0.0
+
+
+def test_the_docs_show_the_key_table_as_the_code_has_it():
+    """docs/scenario.md's key tables are generated (python -m planner.scenario); every
+    section and array of tables has one."""
+    text = (ROOT / "docs" / "scenario.md").read_text(encoding="utf-8")
+    assert K.with_tables(text) == text, "run: python -m planner.scenario"
+    marked = {m.group(2) for m in K.MARK.finditer(text)}
+    assert marked == set(K.SECTIONS) | set(K.ARRAYS)

@@ -3,7 +3,7 @@
 This table drives the scenario's validation (types, finite numbers, ranges, unknown and
 missing keys), the conversion to SI on loading, the model's defaults
 (:mod:`planner.scenario.model`), the CLI's defaults, and the key tables of
-docs/scenario.md (``python -m planner.scenario.keys`` rewrites them; a test checks that
+docs/scenario.md (``python -m planner.scenario`` rewrites them; a test checks that
 they agree).  Rules that tie several keys together stay in :mod:`planner.scenario.load`.
 """
 
@@ -11,9 +11,7 @@ from __future__ import annotations
 
 import math
 import re
-import sys
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
 from ..design import demand as dm
@@ -115,7 +113,7 @@ SECTIONS: dict[str, tuple[Key, ...]] = {
                 "joins it there (a tee)", source="a choice of ours"),
     ),
     "source": (
-        _text("name", "source"),
+        _text("name", "source", doc="the source's name, on every output"),
         Key("top_water_level_m", unit="m", attr="top_level_m",
             doc="highest water level that can stand (overflow): drives the static head line"),
         Key("top_water_above_ground_m", unit="m", attr="top_above_ground_m",
@@ -276,7 +274,7 @@ DEFAULT_OUTLET_MIN_PRESSURE_M = 10.0
 #: array of tables -> the keys of each table.
 ARRAYS: dict[str, tuple[Key, ...]] = {
     "outlets": (
-        _text("name", required=True),
+        _text("name", required=True, doc="the outlet's name, on every output"),
         Key("flow_lps", unit="L/s", low=0, above=True, to_si=LPS, attr="flow_m3s",
             doc="design (peak) flow drawn there; or instead demand"),
         Key("demand", dict, doc="{ kind = ..., ... }: the flow derived from what is needed "
@@ -404,9 +402,3 @@ MARK = re.compile(r"(<!-- keys: (\w+) -->\n)(.*?)(\n<!-- /keys -->)", re.S)
 def with_tables(text: str) -> str:
     """docs/scenario.md with every marked key table regenerated from this module."""
     return MARK.sub(lambda m: m.group(1) + markdown(m.group(2)) + m.group(4), text)
-
-
-if __name__ == "__main__":                  # python -m planner.scenario.keys [docs file]
-    doc = Path(sys.argv[1] if len(sys.argv) > 1 else "docs/scenario.md")
-    doc.write_text(with_tables(doc.read_text(encoding="utf-8")), encoding="utf-8")
-    print(f"rewrote the key tables in {doc}")
