@@ -51,25 +51,42 @@ def _terrain_window(plans, margin_m: float = 1500.0):
 
 
 def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
-    """Write plan.json, profile.csv, profile.png and map.html into ``out_dir``.
+    """Write a line's deliverables into ``out_dir`` (see :func:`_write_set`).
 
-    Each file is written atomically, so an interrupted run leaves the previous
-    file of that name intact.
+    Each file is written atomically, so an interrupted run leaves the previous file of
+    that name intact.
     """
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    written = {
-        "plan.json": write_plan_json(plan_, out / "plan.json"),
-        "profile.csv": write_profile_csv(plan_.profile, out / "profile.csv"),
-    }
-    # the drawing, the sheets and the map are independent: drawn side by side on spare cores
-    jobs: list[tuple] = [("png", plan_, out, "profile", {}), ("sheets", plan_, out, "profile", {})]
-    if np.all(np.isfinite(plan_.profile.lat)):
-        jobs.append(("map", plan_, out, "", {"terrain": _terrain_window(plan_)}))
+    mapped = bool(np.all(np.isfinite(plan_.profile.lat)))
+    return _write_set(out, drawings=[(plan_, "profile")],
+                      map_job=(plan_, {"terrain": _terrain_window(plan_)}) if mapped else None,
+                      write_json=lambda path: write_plan_json(plan_, path),
+                      extra={"profile.csv": write_profile_csv(plan_.profile, out / "profile.csv")},
+                      bill_plans=[plan_], junctions=0)
+
+
+def _write_set(out: Path, *, drawings, map_job, write_json, extra, bill_plans,
+               junctions: int) -> dict[str, Path]:
+    """The one list of deliverables, for a line and a tree alike.
+
+    The profile drawing and the permit sheets of each ``(plan, stem)`` in ``drawings``
+    and the map (``map_job``: its plans and options, or None without coordinates),
+    drawn side by side on spare cores; then plan.json (``write_json(path)``), the
+    ``extra`` files already written, the bill of quantities and GIS layers of
+    ``bill_plans``, and the report.
+    """
+    jobs: list[tuple] = [(kind, p, out, stem, {}) for p, stem in drawings
+                         for kind in ("png", "sheets")]
+    if map_job is not None:
+        jobs.append(("map", map_job[0], out, "", map_job[1]))
+    written: dict[str, Path] = {}
     for part in _in_parallel(_drawing, jobs):
         written.update(part)
-    written.update(_deliverables([plan_], out, junctions=0))
-    written.update(_report(out, [out / "profile.png"]))
+    written["plan.json"] = write_json(out / "plan.json")
+    written.update(extra)
+    written.update(_deliverables(bill_plans, out, junctions=junctions))
+    written.update(_report(out, [out / f"{stem}.png" for _, stem in drawings]))
     return written
 
 
@@ -166,24 +183,21 @@ def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     link_plans = [as_line_plan(plan_, [k]) for k in range(len(plan_.links))]
-    written = {}
     drawings: list[dict] = []
-    jobs: list[tuple] = []
+    paths = []
     for k in plan_.ends:
         path_plan = as_line_plan(plan_, plan_.path(k))
         last = path_plan.outlets[-1].name if path_plan.outlets else plan_.links[k].name
         stem = "profile_" + (re.sub(r"[^a-z0-9]+", "-", last.lower()).strip("-") or f"path-{k}")
-        jobs += [("png", path_plan, out, stem, {}), ("sheets", path_plan, out, stem, {})]
+        paths.append((path_plan, stem))
         drawings.append({"file": f"{stem}.png", "links": plan_.path(k), "to": last})
-    jobs.append(("map", link_plans, out, "", {"terrain": _terrain_window(link_plans),
-                                              "title": plan_.scenario.project.name,
-                                              "outlet_risk": plan_.outlet_risk}))
-    # the drawings and the map are independent: drawn side by side on spare cores
-    for part in _in_parallel(_drawing, jobs):
-        written.update(part)
-    written["plan.json"] = write_network_json(plan_, link_plans, drawings, out / "plan.json")
     junctions = sum(1 for k in range(len(plan_.links))
                     if sum(lk.parent == k for lk in plan_.links) >= 1)
-    written.update(_deliverables(link_plans, out, junctions=junctions))
-    written.update(_report(out, [out / d["file"] for d in drawings]))
-    return written
+    return _write_set(
+        out, drawings=paths,
+        map_job=(link_plans, {"terrain": _terrain_window(link_plans),
+                              "title": plan_.scenario.project.name,
+                              "outlet_risk": plan_.outlet_risk}),
+        write_json=lambda path: write_network_json(plan_, link_plans, drawings, path),
+        extra={}, bill_plans=link_plans, junctions=junctions)
+
