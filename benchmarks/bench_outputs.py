@@ -68,7 +68,7 @@ low_water_above_ground_m = 0.5
 material = "PE100"
 inside_diameter_mm = 180
 roughness_mm = 0.007
-rating_bar = 16
+pressure_rating_bar = 16
 [[outlets]]
 name = "end"
 chainage_m = 1

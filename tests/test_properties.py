@@ -33,7 +33,7 @@ SETTINGS = settings(max_examples=20, deadline=None,
                     suppress_health_check=[HealthCheck.function_scoped_fixture,
                                            HealthCheck.too_slow])
 
-PIPE = 'material = "PE100"\ninside_diameter_mm = 61.4\nroughness_mm = 0.007\nrating_bar = 16\n'
+PIPE = 'material = "PE100"\ninside_diameter_mm = 61.4\nroughness_mm = 0.007\npressure_rating_bar = 16\n'
 # the LP as final method keeps each example under a second (the MILP is tested elsewhere)
 DESIGN = 'catalogues = ["pe100"]\nmin_size_mm = 32\nmax_size_mm = 110\nwhole_pieces = false\n'
 

@@ -22,7 +22,7 @@ yield_lps = 2
 material = "PE100"
 inside_diameter_mm = 61.4
 roughness_mm = 0.007
-rating_bar = 10
+pressure_rating_bar = 10
 [[outlets]]
 name = "tap"
 chainage_m = 100
@@ -55,13 +55,13 @@ def test_defaults(tmp_path):
 
 
 def test_every_problem_is_reported_with_its_key(tmp_path):
-    bad = GOOD.replace('rating_bar = 10', 'rating_bar = -1\ncolour = "blue"') \
+    bad = GOOD.replace('pressure_rating_bar = 10', 'pressure_rating_bar = -1\ncolour = "blue"') \
               .replace("flow_lps = 0.5", "flow_lps = 0") \
               .replace("[route]", "[criteria]\nfriction = 'manning'\ntemperature_c = 80\n[route]")
     with pytest.raises(InputError) as info:
         load_scenario(write(tmp_path, bad))
     text = str(info.value)
-    for expected in ["pipe.rating_bar: must be > 0", "pipe.colour: unknown key",
+    for expected in ["pipe.pressure_rating_bar: must be > 0", "pipe.colour: unknown key",
                      "outlets[1].flow_lps: must be > 0",
                      "criteria.friction: expected one of colebrook, hazen-williams, got "
                      "'manning'", "criteria.temperature_c"]:

@@ -45,7 +45,7 @@ def test_every_key_lands_on_a_field_with_the_tables_default(table):
 def test_unit_factors_are_the_si_definitions():
     """BIPM SI Brochure (2019): litre = 1e-3 m^3, bar = 1e5 Pa, millimetre = 1e-3 m."""
     assert K.keys_of("outlets")["flow_lps"].to_si == pytest.approx(1e-3)
-    assert K.keys_of("pipe")["rating_bar"].to_si == pytest.approx(1e5)
+    assert K.keys_of("pipe")["pressure_rating_bar"].to_si == pytest.approx(1e5)
     assert K.keys_of("pipe")["inside_diameter_mm"].to_si == pytest.approx(1e-3)
     assert K.keys_of("design")["min_size_mm"].field == "min_size_m"
 
@@ -54,13 +54,13 @@ def _minimal() -> dict:
     return {"project": {"name": "t"}, "route": {"file": "r.csv"},
             "source": {"top_water_above_ground_m": 1.0, "low_water_above_ground_m": 0.5},
             "pipe": {"material": "PE100", "inside_diameter_mm": 50.0, "roughness_mm": 0.007,
-                     "rating_bar": 10.0},
+                     "pressure_rating_bar": 10.0},
             "outlets": [{"name": "o", "chainage_m": 10.0, "flow_lps": 1.0}]}
 
 
 @pytest.mark.parametrize("section,key,value", [
     ("criteria", "cover_m", math.nan), ("criteria", "entrance_k", math.inf),
-    ("pipe", "rating_bar", math.inf), ("terrain", "max_void_m", math.nan),
+    ("pipe", "pressure_rating_bar", math.inf), ("terrain", "max_void_m", math.nan),
     ("uncertainty", "sigma_m", math.inf), ("drawing", "km_per_sheet", math.nan),
     ("outlets", "min_pressure_m", -20.0), ("outlets", "flow_lps", math.nan),
     ("uncertainty", "seed", -1),
@@ -96,3 +96,27 @@ def test_the_docs_show_the_key_table_as_the_code_has_it():
     assert K.with_tables(text) == text, "run: python -m planner.scenario"
     marked = {m.group(2) for m in K.MARK.finditer(text)}
     assert marked == set(K.SECTIONS) | set(K.ARRAYS)
+
+
+def _keys(obj, out):
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            out.add(k)
+            _keys(v, out)
+    elif isinstance(obj, list):
+        for v in obj:
+            _keys(v, out)
+    return out
+
+
+def test_the_glossarys_plan_json_names_are_in_plan_json(demo_run):
+    """docs/glossary.md: every name it gives for plan.json is one the demo's plan.json has."""
+    import json
+    import re
+
+    out, _ = demo_run("scenario.toml")
+    have = _keys(json.loads((out / "plan.json").read_text()), set())
+    text = (ROOT / "docs" / "glossary.md").read_text(encoding="utf-8")
+    rows = [r.split("|")[1:-1] for r in text.splitlines() if r.startswith("| ") and "`" in r]
+    named = {n for r in rows if len(r) == 5 for n in re.findall(r"`([a-z_0-9]+)`", r[3])}
+    assert named and not named - have, sorted(named - have)

@@ -148,7 +148,7 @@ def report_html(data: dict, drawings: list[Path], bill_rows: list[list]) -> str:
                                  "rating [m]", "cost"],
                                 [[st["from_chainage_m"], st["to_chainage_m"], st["label"],
                                   st["length_m"], st["max_static_head_m"],
-                                  st["derated_rating_head_m"], st["cost"]] for st in lk["stretches"]]))
+                                  st["rating_head_m"], st["cost"]] for st in lk["stretches"]]))
         if lk["features"]:
             parts.append(_table(["valve", "chainage [m]", "size [mm]", "rule", "source"],
                                 [[f["kind"].replace("_", " "), f["chainage_m"], f["size_mm"],

@@ -142,7 +142,7 @@ def _inputs_dict(plan: Plan) -> dict:
                   "roughness_mm": _f(sc.pipe.roughness_m * 1e3, 4)
                   if sc.pipe.roughness_m is not None else None,
                   "hazen_williams_c": sc.pipe.c_factor,
-                  "rating_bar": _f(sc.pipe.rating_pa / BAR, 2),
+                  "pressure_rating_bar": _f(sc.pipe.rating_pa / BAR, 2),
                   "rating_head_m": _f(float(plan.rating_head_m[0]), 2)}
                  if sc.pipe is not None else None),
         "design": ({k: (list(v) if isinstance(v, tuple) else v)
@@ -195,7 +195,7 @@ def _stretches_list(plan: Plan) -> list[dict]:
         "pressure_rating_bar": _f(st.option.rating / BAR, 2),
         "roughness_mm": _f(st.option.roughness * 1e3, 4),
         "hazen_williams_c": _f(st.option.c_factor, 1),
-        "derated_rating_head_m": _f(st.rating_head_m, 2),
+        "rating_head_m": _f(st.rating_head_m, 2),
         "from_chainage_m": _f(st.chainage_m, 2), "to_chainage_m": _f(st.chainage_end_m, 2),
         "length_m": _f(st.length_m, 2), "cost_per_m": _f(st.option.cost_per_m, 2),
         "cost": _f(st.cost, 2), "max_static_head_m": _f(st.max_static_head_m, 2),

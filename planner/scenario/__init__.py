@@ -1,7 +1,7 @@
 """The scenario file (TOML): what the engineer states about one gravity system.
 
 All unit handling of the input happens here: keys carry their unit in their name
-(``flow_lps``, ``inside_diameter_mm``, ``rating_bar``) and are converted to SI on
+(``flow_lps``, ``inside_diameter_mm``, ``pressure_rating_bar``) and are converted to SI on
 loading.  Three modules: :mod:`~planner.scenario.keys` (every key once: type, default,
 unit, range, meaning, source), :mod:`~planner.scenario.model` (the loaded records) and
 :mod:`~planner.scenario.load` (reading and checking).  Every key is documented in

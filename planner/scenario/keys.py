@@ -140,7 +140,7 @@ SECTIONS: dict[str, tuple[Key, ...]] = {
         Key("hazen_williams_c", unit="-", low=0, above=True, attr="c_factor",
             doc="C, needed with friction = \"hazen-williams\"; 150 for PE/PVC, 120 for "
                 "galvanised iron (common practice)"),
-        Key("rating_bar", required=True, unit="bar", low=0, above=True, high=250, to_si=BAR,
+        Key("pressure_rating_bar", required=True, unit="bar", low=0, above=True, high=250, to_si=BAR,
             attr="rating_pa", doc="the pipe's pressure rating; static pressure above it is "
             "an error"),
         Key("outside_diameter_mm", unit="mm", low=0, above=True, to_si=MM,

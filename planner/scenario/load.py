@@ -261,7 +261,7 @@ def _pipe(pp: dict[str, Any], given: bool, criteria: Criteria, problems: _Proble
                          "'hazen-williams' (e.g. 150 for PE or PVC)")
     for k in ("inside_diameter_mm", "outside_diameter_mm"):
         _looks_like_metres(f"pipe.{k}", pp.get(k), stacklevel=4)
-    if not given or "inside_diameter_mm" not in pp or "rating_bar" not in pp:
+    if not given or "inside_diameter_mm" not in pp or "pressure_rating_bar" not in pp:
         return None
     return Pipe(**{"material": "", **fields("pipe", pp)})
 

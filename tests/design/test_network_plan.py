@@ -113,7 +113,7 @@ def test_check_mode_with_given_pipe_tanks_and_fittings(demo_folder, tmp_path):
     text = (demo_folder / "scenario_network.toml").read_text()
     text = re.sub(r"\[design\].*?max_static_pressure_m = 100\n",
                   '[pipe]\nmaterial = "PE100"\nlabel = "PE100 90 SDR11"\ninside_diameter_mm = 73.6\n'
-                  "roughness_mm = 0.007\nrating_bar = 16\n\n"
+                  "roughness_mm = 0.007\npressure_rating_bar = 16\n\n"
                   '[[break_pressure_tanks]]\nlink = "main"\nchainage_m = 2000\n\n'
                   '[[break_pressure_tanks]]\nlink = "main"\nchainage_m = 3400\n', text, flags=re.S)
     for name in ("dem.tif", "network.geojson"):

@@ -13,7 +13,7 @@ from tests.design.conftest import ramp
 def scenario(tmp_path, *, route="route.geojson", extra="", pipe=None, outlets=None,
              criteria="", source=None):
     pipe = pipe or ('material = "PE100"\ninside_diameter_mm = 61.4\nroughness_mm = 0.007\n'
-                    'rating_bar = 16')
+                    'pressure_rating_bar = 16')
     outlets = outlets or '[[outlets]]\nname = "end"\nchainage_m = 3500\nflow_lps = 2.0\n'
     source = source or "top_water_above_ground_m = 1.0\nlow_water_above_ground_m = 0.5\nyield_lps = 5"
     text = f"""
@@ -59,7 +59,7 @@ def test_outlet_by_location_is_snapped(ramp_site):
 
 
 def test_over_rating_and_yield_and_outlet_pressure(ramp_site):
-    pipe = 'material = "PE100"\ninside_diameter_mm = 30\nroughness_mm = 0.007\nrating_bar = 10'
+    pipe = 'material = "PE100"\ninside_diameter_mm = 30\nroughness_mm = 0.007\npressure_rating_bar = 10'
     src = "top_water_above_ground_m = 1.0\nlow_water_above_ground_m = 0.5\nyield_lps = 1"
     plan = plan_scenario(load_scenario(scenario(ramp_site, pipe=pipe, source=src)))
     codes = {f.code for f in plan.errors}
@@ -100,7 +100,7 @@ def test_survey_route_needs_no_dem(tmp_path):
 
 
 def test_hazen_williams_option(ramp_site):
-    pipe = 'material = "PVC"\ninside_diameter_mm = 61.4\nhazen_williams_c = 150\nrating_bar = 16'
+    pipe = 'material = "PVC"\ninside_diameter_mm = 61.4\nhazen_williams_c = 150\npressure_rating_bar = 16'
     plan = plan_scenario(load_scenario(scenario(ramp_site, pipe=pipe,
                                                 criteria='friction = "hazen-williams"')))
     dw = plan_scenario(load_scenario(scenario(ramp_site)))
@@ -210,7 +210,7 @@ def test_siphon_allowed_up_to_the_vapour_limit(tmp_path, write_geojson, hump, ex
 
 
 def test_surge_check_for_a_given_pipe(ramp_site):
-    base = 'material = "PE100"\ninside_diameter_mm = 61.4\nroughness_mm = 0.007\nrating_bar = 16\n'
+    base = 'material = "PE100"\ninside_diameter_mm = 61.4\nroughness_mm = 0.007\npressure_rating_bar = 16\n'
     plan = plan_scenario(load_scenario(scenario(ramp_site, pipe=base)))
     assert any(f.code == "surge-unchecked" for f in plan.findings)
     fast = base + "outside_diameter_mm = 75\nelastic_modulus_gpa = 1.0\n"
