@@ -376,10 +376,14 @@ def check_surge(stretches_, criteria) -> list[Finding]:
         if not np.isfinite(s.surge_head_m):
             continue
         allowed = criteria.surge_rating_factor * s.rating_head_m
-        total = s.max_static_head_m + s.surge_head_m
-        if total <= allowed + 1e-6:
+        # the worst segment, each with its own static head and velocity (the designer's
+        # rule); without it, the stretch's highest static head and highest surge
+        static, surge = ((s.surge_check_static_m, s.surge_check_surge_m)
+                         if np.isfinite(s.surge_check_static_m)
+                         else (s.max_static_head_m, s.surge_head_m))
+        if static + surge <= allowed + 1e-6:
             continue
-        room = allowed - s.max_static_head_m
+        room = allowed - static
         slower = ""
         if room > 0:
             t_safe = float(safe_closure_time(s.reach_length_m, s.max_velocity_mps, room))
@@ -388,7 +392,7 @@ def check_surge(stretches_, criteria) -> list[Finding]:
         out.append(Finding(
             "error", "surge",
             f"{s.option.label} from chainage {s.chainage_m:,.0f} to {s.chainage_end_m:,.0f} m: "
-            f"static {s.max_static_head_m:.0f} m plus surge {s.surge_head_m:.0f} m "
+            f"static {static:.0f} m plus surge {surge:.0f} m "
             f"(valve closed in {criteria.valve_closure_s:g} s, wave speed {s.wave_speed_mps:.0f} m/s) "
             f"exceeds {allowed:.0f} m",
             slower + "use a higher pressure class, or add a break-pressure tank",

@@ -11,6 +11,7 @@ The design engine (:mod:`planner.design.engine`) reads nothing else.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 from numpy.typing import NDArray
@@ -41,10 +42,14 @@ class Layout:
     network: RouteNetwork | None = None
     notes: tuple[str, ...] = field(default=())
 
-    @property
+    @cached_property
     def children(self) -> list[list[int]]:
         """The links hanging from each link's end."""
-        return [[c for c, p in enumerate(self.parents) if p == k] for k in range(len(self.parents))]
+        out: list[list[int]] = [[] for _ in self.parents]
+        for c, p in enumerate(self.parents):
+            if p >= 0:
+                out[p].append(c)
+        return out
 
     @property
     def root(self) -> int:

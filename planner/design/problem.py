@@ -235,6 +235,12 @@ def stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, cr
         v = float(np.max(energy.velocity[a:b]))
         surge = float(sg.surge_head(surge_len[r], v, wave[j], cr.valve_closure_s)) \
             if np.isfinite(wave[j]) else float("nan")
+        # the rule the candidates were admitted by: each segment's static head (its lower
+        # end) plus the surge of its own velocity
+        seg_static = energy.static_head[a:b] - np.minimum(prof.pipe_m[a:b], prof.pipe_m[a + 1:b + 1])
+        seg_surge = (sg.surge_head(surge_len[r], energy.velocity[a:b], wave[j], cr.valve_closure_s)
+                     if np.isfinite(wave[j]) else np.full(b - a, np.nan))
+        worst = int(np.argmax(np.nan_to_num(seg_static + seg_surge, nan=-np.inf)))
         out.append(Stretch(option=o, start_index=a, end_index=b, chainage_m=float(ch[a]),
                            chainage_end_m=float(ch[b]), length_m=length,
                            cost=length * o.cost_per_m, rating_head_m=float(seg_rating[a]),
@@ -242,7 +248,9 @@ def stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, cr
                                                           - prof.pipe_m[a:b + 1])),
                            min_pressure_head_m=float(np.min(energy.pressure_head[a:b + 1])),
                            max_velocity_mps=v, surge_head_m=surge, wave_speed_mps=float(wave[j]),
-                           reach_length_m=float(surge_len[r])))
+                           reach_length_m=float(surge_len[r]),
+                           surge_check_static_m=float(seg_static[worst]),
+                           surge_check_surge_m=float(seg_surge[worst])))
         start = s
     return tuple(out)
 

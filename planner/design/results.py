@@ -92,6 +92,10 @@ class Stretch:
     surge_head_m: float = float("nan")
     wave_speed_mps: float = float("nan")
     reach_length_m: float = float("nan")   # from the free surface feeding it [m]
+    #: the segment where static head plus surge is highest: its static head and surge [m]
+    #: (each segment with its own velocity, as the designer admits candidates)
+    surge_check_static_m: float = float("nan")
+    surge_check_surge_m: float = float("nan")
 
 
 @dataclass(frozen=True)

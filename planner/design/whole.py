@@ -150,34 +150,45 @@ def _open_sizes(p: SizingProblem, unit: NDArray, n_units: int, gpos: NDArray,
     return yub
 
 
-def solve_whole_pieces(p: SizingProblem, *, rounds: int = 2,
-                       time_limit: float = MIP_TIME_LIMIT) -> SizingResult:
+def _split(p: SizingProblem, lengths: NDArray) -> NDArray:
+    """Which pieces (of the reaches: not the joins between links) use several pipes."""
+    in_reach = np.zeros(p.allowed.shape[0], dtype=bool)
+    in_reach[np.concatenate(_reach_pieces(p))] = True
+    return in_reach & ((lengths > 1e-6 * p.piece_length[:, None]).sum(axis=1) > 1)
+
+
+def solve_whole_pieces(p: SizingProblem, *, rounds: int = 2, time_limit: float = MIP_TIME_LIMIT,
+                       mip_rel_gap: float = MIP_GAP) -> SizingResult:
     """The split-pipe optimum, then one candidate per piece where the LP split one.
 
-    Pieces the LP made of several pipes get a binary choice (a MILP over those only),
-    repeated while the answer splits others.  Forcing only some pieces whole is a
-    relaxation of forcing all, so once no piece is split the answer is the optimum of
-    "one pipe per piece" within the MILP's stated gap.  After ``rounds`` rounds every
-    piece is made whole at once (one larger MILP), and the notes say so.
+    The pieces the LP made of several pipes get a binary choice (a MILP over those
+    only), repeated while the answer splits others.
+    Forcing only some pieces whole is a relaxation of forcing all, so once no piece is
+    split the answer is the optimum of "one pipe per piece" within the MILP's stated
+    gap.  After ``rounds`` rounds every piece is made whole at once (one larger MILP),
+    and the notes say so.
     """
     lp = solve_sizing(p)
     res, mask = lp, np.zeros(p.allowed.shape[0], dtype=bool)
     notes = []
     bound = lp.cost
+    lengths, cost, status = lp.lengths, lp.cost, lp.status
     for r in range(rounds + 1):
-        split = (res.lengths > 1e-6 * p.piece_length[:, None]).sum(axis=1) > 1
+        split = _split(p, res.lengths)
+        lengths, cost, status = res.lengths, res.cost, res.status
         if not split.any():
             break
         mask = np.ones_like(mask) if r == rounds else mask | split
         if r == rounds:
             notes.append(f"after {rounds} rounds over the split sub-stretches, every sub-stretch "
                          "was made one pipe in one programme")
-        res = solve_whole(p, "piece", pieces=mask, time_limit=time_limit)
+        res = solve_whole(p, "piece", pieces=mask, time_limit=time_limit, mip_rel_gap=mip_rel_gap)
         bound = max(bound, res.lower_bound)
-    gap = (res.cost - bound) / res.cost if res.cost > 0 else 0.0
-    return SizingResult(lengths=res.lengths, cost=res.cost,
+        lengths, cost, status = res.lengths, res.cost, res.status
+    gap = (cost - bound) / cost if cost > 0 else 0.0
+    return SizingResult(lengths=lengths, cost=cost,
                         method="split-pipe LP, then one pipe per sub-stretch (MILP)"
-                        if mask.any() else "split-pipe LP", status=res.status,
+                        if mask.any() else "split-pipe LP", status=status,
                         gap=max(gap, 0.0), lower_bound=bound, split_pipe_cost=lp.cost,
                         binding=lp.binding,
                         seconds=lp.seconds + (0.0 if res is lp else res.seconds),

@@ -21,7 +21,7 @@ from pyproj import Transformer
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
-from shapely.geometry import LineString, Point
+from shapely.geometry import LineString
 from shapely.ops import substring
 
 from ..errors import InputError, InputFileError
@@ -218,24 +218,29 @@ def _split_at_tees(metric: list[tuple[LineString, str, float]], snap_tolerance_m
     """Split, in place, each metric line where another line's end touches it part-way along.
 
     ``metric`` holds (line [m], name, offset along the drawn line [m]); each split is
-    noted in ``notes``.
+    noted in ``notes``.  A line is cut at every end that lies within the tolerance of it,
+    more than the tolerance from its ends and from the previous cut (vectorised with
+    shapely over all ends at once).
     """
-    changed = True
-    while changed:
-        changed = False
-        ends = [Point(g.coords[i]) for g, _, _ in metric for i in (0, -1)]
-        for k, (g, name, off) in enumerate(metric):
-            for e in ends:
-                d_along = g.project(e)
-                if (g.distance(e) <= snap_tolerance_m
-                        and snap_tolerance_m < d_along < g.length - snap_tolerance_m):
-                    a, b = _split(g, d_along)
-                    metric[k:k + 1] = [(a, name, off), (b, name, off + d_along)]
-                    notes.append(f"line {name or k + 1!s} split where a branch joins it")
-                    changed = True
-                    break
-            if changed:
-                break
+    tol = snap_tolerance_m
+    ends = shapely.points(np.array([g.coords[i][:2] for g, _, _ in metric for i in (0, -1)]))
+    out: list[tuple[LineString, str, float]] = []
+    for k, (g, name, off) in enumerate(metric):
+        flat = LineString(np.asarray(g.coords)[:, :2]) if g.has_z else g
+        along = shapely.line_locate_point(flat, ends)
+        hit = (shapely.distance(flat, ends) <= tol) & (along > tol) & (along < g.length - tol)
+        cuts: list[float] = []
+        for d in np.sort(along[hit]):
+            if not cuts or d - cuts[-1] > tol:
+                cuts.append(float(d))
+        rest, done = g, 0.0
+        for d in cuts:
+            a, rest = _split(rest, d - done)
+            out.append((a, name, off + done))
+            notes.append(f"line {name or k + 1!s} split where a branch joins it")
+            done = d
+        out.append((rest, name, off + done))
+    metric[:] = out
 
 
 def _snap_ends(metric: list[tuple[LineString, str, float]], snap_tolerance_m: float

@@ -254,3 +254,24 @@ def test_outlet_maximum_pressure(ramp_site):
     assert 10 - 1e-3 <= mid.pressure_head_m <= 11 + 1e-3
     assert end.pressure_head_m >= 10 - 1e-3
     assert capped.pipe_cost >= free.sizing.lower_bound - 1e-6
+
+
+def test_a_designed_line_passes_its_own_surge_rule_at_every_segment(ramp_site):
+    """Every segment of the designed pipe keeps static head plus the surge of its own
+    velocity within its rating: Joukowsky's a V / g for a closure within 2 L / a, else
+    Michaud's 2 L V / (g t) (Joukowsky 1900; Michaud 1878), written here, with the
+    wave speed the plan reports for the pipe.  The plan's surge check says the same."""
+    from planner.units import G
+
+    plan = plan_scenario(load_scenario(design_scenario(
+        ramp_site, extra_design="max_static_pressure_m = 60\n")))
+    cr = plan.scenario.criteria
+    e, prof = plan.energy, plan.profile
+    for st in plan.stretches:
+        a, b = st.start_index, st.end_index
+        static = e.static_head[a:b] - np.minimum(prof.pipe_m[a:b], prof.pipe_m[a + 1:b + 1])
+        v = e.velocity[a:b]
+        L, c, t = st.reach_length_m, st.wave_speed_mps, cr.valve_closure_s
+        surge = np.where(t <= 2 * L / c, c * v / G, 2 * L * v / (G * t))
+        assert np.all(static + surge <= cr.surge_rating_factor * st.rating_head_m + 1e-3), st
+    assert not [f for f in plan.findings if f.code == "surge"]
