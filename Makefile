@@ -29,11 +29,12 @@ chromium:
 	    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; \
 	  else echo "the browser tests need chromium: sudo apt-get install chromium"; exit 1; fi; }
 
-# lint and types first (seconds), then the suite
+# lint and types first (seconds), then the suite on every core (a test file stays on
+# one worker, so the session's shared demo plans are made once per worker at most)
 test: $(STAMP) chromium
 	$(BIN)/ruff check --quiet
 	$(BIN)/mypy
-	$(BIN)/python -m pytest -q
+	$(BIN)/python -m pytest -q -n auto --dist loadfile
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_sampling.py
