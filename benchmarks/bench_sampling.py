@@ -34,6 +34,10 @@ N = 10_000
 CELL = 10.0
 E0, N0 = 400_000.0, 9_500_000.0          # UTM 37S; the DEM spans 100 x 100 km
 CRS = "EPSG:32737"
+#: The same terrain on a geographic grid (EPSG:4326): 10,000 x 10,000 cells of 0.0001
+#: degree (about 11 m), with its corner at the projected DEM's south-west corner.
+DEM_GEO = DATA / "dem_geo_10000.tif"
+GEO_CELL = 1e-4
 VERTICES_UV = [(3_000, 5_000), (30_000, 22_000), (45_000, 20_000), (70_000, 52_000),
                (80_000, 75_000), (96_000, 90_000)]
 
@@ -61,6 +65,38 @@ def make_dem() -> None:
                  + rng.normal(0, 0.5, (h, N)))
             ds.write(z.astype(np.float32), 1, window=Window(0, r, N, h))
     tmp.rename(DEM)
+
+
+def make_geo_dem() -> None:
+    """The geographic twin of the benchmark DEM (same formula, lon/lat cells)."""
+    import rasterio
+    from pyproj import Transformer
+    from rasterio.transform import from_origin
+    from rasterio.windows import Window
+
+    if DEM_GEO.exists():
+        return
+    DATA.mkdir(exist_ok=True)
+    lon0, lat0 = Transformer.from_crs(CRS, "EPSG:4326", always_xy=True).transform(E0, N0)
+    to_m = Transformer.from_crs("EPSG:4326", CRS, always_xy=True)
+    rng = np.random.default_rng(0)
+    tmp = DEM_GEO.with_suffix(".part")
+    with rasterio.open(tmp, "w", driver="GTiff", width=N, height=N, count=1, dtype="float32",
+                       crs="EPSG:4326",
+                       transform=from_origin(lon0, lat0 + N * GEO_CELL, GEO_CELL, GEO_CELL),
+                       nodata=-9999.0, tiled=True, blockxsize=256, blockysize=256,
+                       compress="deflate", predictor=3) as ds:
+        step = 1024
+        for r in range(0, N, step):
+            h = min(step, N - r)
+            lat = lat0 + (N - r - np.arange(h)[:, None] - 0.5) * GEO_CELL
+            lon = lon0 + (np.arange(N)[None, :] + 0.5) * GEO_CELL
+            x, y = to_m.transform(*np.broadcast_arrays(lon, lat))
+            u, v = x - E0, y - N0
+            z = (1500 + 300 * np.sin(u / 9000) * np.cos(v / 13000) + 40 * np.sin(u / 700 + v / 900)
+                 + rng.normal(0, 0.5, (h, N)))
+            ds.write(z.astype(np.float32), 1, window=Window(0, r, N, h))
+    tmp.rename(DEM_GEO)
 
 
 def route():
@@ -109,6 +145,15 @@ def child(kind: str) -> dict:
         ds = rasterio.open(DEM)
         r0, t0 = rchar(), time.perf_counter()
         z = np.fromiter((v[0] for v in ds.sample(zip(xs, ys))), dtype=float, count=xs.size)
+    elif kind == "profile_geo":      # the whole job on the geographic twin (geodesic)
+        p = sample_profile(line, DEM_GEO, spacing_m=spacing)
+        out["points"] = p.n
+    elif kind == "rasterio_geo":     # rasterio on the same lon/lat points
+        p = sample_profile(line, DEM_GEO, spacing_m=spacing)
+        ds = rasterio.open(DEM_GEO)
+        r0, t0 = rchar(), time.perf_counter()
+        z = np.fromiter((v[0] for v in ds.sample(zip(p.lon, p.lat))), dtype=float, count=p.n)
+        out["points"] = p.n
     elif kind == "energy":
         from planner.hydraulics.line import FreeSurface, PipeHydraulics, line_energy
         ch = np.linspace(0, 100_000, 100_001)
@@ -141,15 +186,19 @@ def run(kind: str, repeat: int = 3) -> dict:
 def main() -> None:
     t = time.perf_counter()
     make_dem()
+    make_geo_dem()
     size = DEM.stat().st_size
     print(f"DEM {DEM.name}: {N} x {N} float32, {size / 2**20:.1f} MiB on disk "
           f"(ready in {time.perf_counter() - t:.1f} s)")
-    res = {k: run(k) for k in ("ours", "profile", "rasterio", "energy")}
+    res = {k: run(k) for k in ("ours", "profile", "rasterio", "profile_geo", "rasterio_geo",
+                               "energy")}
     n = res["ours"]["points"]
     print(f"{'measurement':<48}{'median s':>10}{'points/s':>12}{'read MiB':>10}{'peak MB':>9}")
     for k, label in (("ours", "Dem.sample (block-wise bilinear)"),
                      ("profile", "sample_profile (open+densify+reproject+sample)"),
                      ("rasterio", "rasterio DatasetReader.sample (nearest)"),
+                     ("profile_geo", "sample_profile on the geographic DEM"),
+                     ("rasterio_geo", "rasterio sample, geographic DEM"),
                      ("energy", "line_energy on 100,001 points")):
         r = res[k]
         rate = f"{r['points'] / r['seconds']:,.0f}" if k != "energy" else "-"
@@ -159,6 +208,8 @@ def main() -> None:
     print(f"speed-up of Dem.sample over rasterio sample: {res['rasterio']['seconds'] / res['ours']['seconds']:.1f}x")
     print(f"speed-up of sample_profile over rasterio sample: "
           f"{res['rasterio']['seconds'] / res['profile']['seconds']:.1f}x")
+    print(f"speed-up of sample_profile over rasterio sample, geographic DEM: "
+          f"{res['rasterio_geo']['seconds'] / res['profile_geo']['seconds']:.1f}x")
     print(f"bytes read by Dem.sample / file size: {res['ours']['bytes_read'] / size:.3f}")
 
 

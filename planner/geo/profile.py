@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import warnings
 from dataclasses import dataclass, field
+from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
@@ -142,10 +143,23 @@ def _densify_geodesic(lon: NDArray, lat: NDArray, spacing: float):
 
 
 def utm_crs_for(lon: float, lat: float) -> CRS:
-    """The WGS84 UTM zone CRS holding a point (pyproj's CRS database)."""
-    info = query_utm_crs_info(datum_name="WGS 84",
-                              area_of_interest=AreaOfInterest(lon, lat, lon, lat))
-    return CRS.from_epsg(int(info[0].code))
+    """The WGS84 UTM zone CRS holding a point.
+
+    Zones are 6 degrees of longitude from 180 W, EPSG 326zz north and 327zz south of the
+    equator (NGA, "The Universal Grids", DMA TM 8358.2, 1989); where the standard widens
+    zones (southern Norway, Svalbard: 56-64 N and 72-84 N) pyproj's CRS database is asked.
+    """
+    if 56.0 <= lat < 64.0 or 72.0 <= lat < 84.0:
+        info = query_utm_crs_info(datum_name="WGS 84",
+                                  area_of_interest=AreaOfInterest(lon, lat, lon, lat))
+        return _crs(int(info[0].code))
+    zone = int((lon + 180.0) // 6.0) % 60 + 1
+    return _crs((32600 if lat >= 0 else 32700) + zone)
+
+
+@lru_cache(maxsize=64)
+def _crs(epsg: int) -> CRS:
+    return CRS.from_epsg(epsg)
 
 
 def _fill_voids(chain: NDArray, z: NDArray, max_void_m: float, source: str):
