@@ -286,6 +286,24 @@ def _build(p: SizingProblem) -> dict:
                 opt_idx=opt_idx, nx=nx, nvar=nvar)
 
 
+#: The programmes built lately, by problem (kept with the problem, so an id is never
+#: reused while its entry lives): the LP, the MILP rounds and the appraisals of one
+#: problem share one build.
+_BUILT: dict[int, tuple[SizingProblem, dict]] = {}
+
+
+def _built(p: SizingProblem) -> dict:
+    """:func:`_build` of ``p``, built once for the last few problems (read-only)."""
+    hit = _BUILT.get(id(p))
+    if hit is not None and hit[0] is p:
+        return hit[1]
+    m = _build(p)
+    if len(_BUILT) >= 4:
+        _BUILT.pop(next(iter(_BUILT)))
+    _BUILT[id(p)] = (p, m)
+    return m
+
+
 def _pressure_rows(ub: _Rows, p: SizingProblem, point: int, head: int, hv_terms) -> None:
     """H - hv >= min_head (and <= max_head where there is one) at a split point."""
     c, v = hv_terms
@@ -312,7 +330,7 @@ def solve_sizing(p: SizingProblem) -> SizingResult:
     The MILPs for whole choices are in :mod:`planner.design.whole`.
     """
     t0 = time.perf_counter()
-    m = _build(p)
+    m = _built(p)
     ncons = m["A_eq"].shape[0] + (m["A_ub"].shape[0] if m["A_ub"] is not None else 0)
     res = linprog(m["c"], A_ub=m["A_ub"], b_ub=m["b_ub"] if m["A_ub"] is not None else None,
                   A_eq=m["A_eq"], b_eq=m["b_eq"], bounds=_bounds(m), method="highs")
@@ -355,7 +373,7 @@ def design_heads(p: SizingProblem, lengths: NDArray) -> tuple[NDArray, dict]:
     The equalities fix every head once the lengths are known; they are solved here as
     the square system they form.
     """
-    m = _build(p)
+    m = _built(p)
     xv = lengths[m["piece_idx"], m["opt_idx"]]
     A = m["A_eq"].tocsc()
     nx = m["nx"]

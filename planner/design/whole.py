@@ -19,7 +19,7 @@ from scipy.optimize import Bounds, LinearConstraint, milp
 from scipy.sparse import coo_matrix, hstack
 
 from ..errors import DesignError
-from .sizing import (SizingProblem, SizingResult, _build, _infeasible, _lengths, _reach_pieces,
+from .sizing import (SizingProblem, SizingResult, _built, _infeasible, _lengths, _reach_pieces,
                      solve_sizing)
 
 #: Relative gap at which the MILPs stop [-]: 0.1 %, far inside the uncertainty of pipe
@@ -47,7 +47,7 @@ def solve_whole(p: SizingProblem, whole: str, *, pieces: NDArray | None = None,
     """
     if whole not in ("reach", "piece"):
         raise ValueError(f"whole must be 'reach' or 'piece', got {whole!r}")
-    return _whole_milp(p, _build(p), whole, pieces, time_limit, mip_rel_gap, time.perf_counter())
+    return _whole_milp(p, _built(p), whole, pieces, time_limit, mip_rel_gap, time.perf_counter())
 
 
 def _whole_milp(p, m, whole, pieces, time_limit, mip_rel_gap, t0) -> SizingResult:
