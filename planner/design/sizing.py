@@ -153,6 +153,9 @@ class SizingResult:
     variables: int = 0
     constraints: int = 0
     notes: tuple[str, ...] = field(default=())
+    #: (LP only) reduced cost of each length [currency/m]: a design with length x more
+    #: of a candidate than the LP costs at least ``reduced_cost * x`` more
+    reduced_cost: NDArray[np.float64] | None = None
 
 
     @property
@@ -341,10 +344,12 @@ def solve_sizing(p: SizingProblem) -> SizingResult:
         hit = (np.abs(res.ineqlin.marginals) > 1e-9) & (m["row_kind"] != MAX)
         binding = tuple(sorted(set(m["row_point"][hit].tolist())))
     cost = float(res.fun)
+    lower = getattr(getattr(res, "lower", None), "marginals", None)
     return SizingResult(lengths=_lengths(p, m, res.x), cost=cost, method="split-pipe LP",
                         status="optimal", gap=0.0, lower_bound=cost, split_pipe_cost=cost,
                         binding=binding, seconds=time.perf_counter() - t0,
-                        variables=m["nvar"], constraints=ncons)
+                        variables=m["nvar"], constraints=ncons,
+                        reduced_cost=None if lower is None else _lengths(p, m, np.maximum(lower, 0.0)))
 
 
 def _infeasible(p: SizingProblem, m: dict, what: str) -> SizingInfeasible:

@@ -148,23 +148,34 @@ def test_a_line_given_as_a_one_link_network_gets_the_same_design(demo_folder):
     from planner import api
     from planner.geo.network import read_lines
 
-    sc = api.load_scenario(demo_folder / "scenario.toml")
-    sc = replace(sc, uncertainty=replace(sc.uncertainty, enabled=False))
-    line = api.plan(sc)
-    geom, name = read_lines(sc.route.file)[0]
+    base = api.load_scenario(demo_folder / "scenario.toml")
+    base = replace(base, uncertainty=replace(base.uncertainty, enabled=False))
+    geom, name = read_lines(base.route.file)[0]
     first = tuple(geom.coords[0][:2])
-    tree_sc = replace(sc, route=replace(sc.route, network=True),
-                      source=replace(sc.source, location=first),
-                      fittings=tuple(replace(f, link=name or "link 1") for f in sc.fittings))
-    tree = plan_network(tree_sc)
-    path = as_line_plan(tree, [0])
-    assert tree.pipe_cost == pytest.approx(line.pipe_cost, rel=1e-6)
-    assert [t.chainage_m for t in path.tanks] == pytest.approx([t.chainage_m for t in line.tanks])
-    assert [s.option.label for s in path.stretches] == [s.option.label for s in line.stretches]
-    np.testing.assert_allclose(path.profile.chainage_m, line.profile.chainage_m, atol=1e-6)
-    np.testing.assert_allclose(path.energy.pressure_head, line.energy.pressure_head, atol=1e-6)
-    np.testing.assert_allclose([s.surge_head_m for s in path.stretches],
-                               [s.surge_head_m for s in line.stretches], rtol=1e-9)
+    # the split-pipe LP has one optimum: everything equal; with whole pieces the MILP
+    # stops within its stated 0.1 % gap, and the tree's coordinates come back from the
+    # metric round trip of build_tree differing by under a nanometre, so the two whole
+    # designs may be two designs within that gap of the same optimum
+    for whole in (False, True):
+        sc = replace(base, design=replace(base.design, whole_pieces=whole))
+        line = api.plan(sc)
+        tree_sc = replace(sc, route=replace(sc.route, network=True),
+                          source=replace(sc.source, location=first),
+                          fittings=tuple(replace(f, link=name or "link 1") for f in sc.fittings))
+        tree = plan_network(tree_sc)
+        path = as_line_plan(tree, [0])
+        assert [t.chainage_m for t in path.tanks] == pytest.approx([t.chainage_m for t in line.tanks])
+        if whole:
+            assert tree.pipe_cost == pytest.approx(line.pipe_cost, rel=1e-3)
+            assert line.sizing.gap <= 1e-3 and tree.sizing.gap <= 1e-3
+            continue
+        assert tree.pipe_cost == pytest.approx(line.pipe_cost, rel=1e-6)
+        assert [s.option.label for s in path.stretches] == [s.option.label for s in line.stretches]
+        np.testing.assert_allclose(path.profile.chainage_m, line.profile.chainage_m, atol=1e-6)
+        np.testing.assert_allclose(path.energy.pressure_head, line.energy.pressure_head, atol=1e-6)
+        np.testing.assert_allclose([s.surge_head_m for s in path.stretches],
+                                   [s.surge_head_m for s in line.stretches], rtol=1e-9)
+        assert [f.message for f in tree.findings] == [f.message for f in line.findings]
 
 
 def test_an_impossible_outlet_on_a_tree_is_explained_in_metres(demo_folder):
