@@ -104,3 +104,13 @@ def test_modules_are_short(name, path):
     assert n <= limit, f"{path.relative_to(ROOT)} has {n} lines (limit {limit})"
     if name in LONG_MODULES:
         assert n > MODULE_LINES, f"{name} is short now: remove it from LONG_MODULES"
+
+
+def test_the_report_package_reads_results_and_never_the_planner():
+    """report/ draws and writes what the planner computed: of planner.design it may
+    import only the records (design.results), never the engine or its steps."""
+    g = import_graph()
+    bad = sorted((a, b) for a, b in g.edges
+                 if a.startswith("planner.report") and b.startswith("planner.design")
+                 and b != "planner.design.results")
+    assert not bad, bad

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from .._arrays import true_runs
 from ..units import G, LPS
 
 
@@ -43,19 +44,6 @@ class Finding:
     remedy: str = ""
     chainage_m: float | None = None
     chainage_end_m: float | None = None
-
-
-def stretches(mask: NDArray[np.bool_]) -> list[tuple[int, int]]:
-    """Runs of True in a boolean array, as inclusive (first, last) index pairs.
-
-    Examples
-    --------
-    >>> stretches(np.array([False, True, True, False, True]))
-    [(1, 2), (4, 4)]
-    """
-    m = np.asarray(mask, dtype=np.int8)
-    edges = np.flatnonzero(np.diff(np.concatenate([[0], m, [0]])))
-    return [(int(a), int(b) - 1) for a, b in zip(edges[::2], edges[1::2])]
 
 
 def _where(ch: NDArray, a: int, b: int) -> str:
@@ -154,7 +142,7 @@ def _below_atmospheric(ch: NDArray, pressure_head: NDArray, siphon_limit: NDArra
     list of Finding
     """
     out: list[Finding] = []
-    for a, b in stretches(pressure_head < 0):
+    for a, b in true_runs(pressure_head < 0):
         worst = a + int(np.argmin(pressure_head[a:b + 1]))
         beyond = siphon_limit is not None and np.any(pressure_head[a:b + 1] < siphon_limit[a:b + 1])
         where = (f"pressure below atmospheric {_where(ch, a, b)} (lowest {pressure_head[worst]:.1f} m "
@@ -202,7 +190,7 @@ def _low_pressure(ch: NDArray, pressure_head: NDArray, flowing: NDArray, criteri
     """
     out: list[Finding] = []
     low = (pressure_head >= 0) & (pressure_head < criteria.min_line_pressure_m) & flowing
-    for a, b in stretches(low):
+    for a, b in true_runs(low):
         if a in surface_index:
             continue
         worst = a + int(np.argmin(pressure_head[a:b + 1]))
@@ -233,7 +221,7 @@ def _over_rating(ch: NDArray, static_pressure_head: NDArray, rating: NDArray) ->
     list of Finding
     """
     out: list[Finding] = []
-    for a, b in stretches(static_pressure_head > rating + 1e-6):
+    for a, b in true_runs(static_pressure_head > rating + 1e-6):
         worst = a + int(np.argmax(static_pressure_head[a:b + 1]))
         out.append(Finding(
             "error", "over-rating",
@@ -266,14 +254,14 @@ def _velocity_out_of_range(ch: NDArray, velocity: NDArray, flowing: NDArray,
     """
     out: list[Finding] = []
     fast = (velocity > criteria.velocity_max_mps) & flowing
-    for a, b in stretches(fast):
+    for a, b in true_runs(fast):
         out.append(Finding(
             "warning", "velocity-high",
             f"velocity {velocity[a:b + 1].max():.2f} m/s {_where(ch, a, b)} is above "
             f"{criteria.velocity_max_mps:g} m/s: surge and erosion risk",
             "use a larger pipe; close valves slowly", float(ch[a]), float(ch[b])))
     slow = (velocity < criteria.velocity_min_mps) & flowing
-    for a, b in stretches(slow):
+    for a, b in true_runs(slow):
         out.append(Finding(
             "warning", "velocity-low",
             f"velocity {velocity[a:b + 1].min():.2f} m/s {_where(ch, a, b)} is below "

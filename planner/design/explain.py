@@ -12,7 +12,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..errors import DesignError
-from .checks import _where, stretches as runs
+from .._arrays import true_runs as runs
+from .checks import _where
 from .sizing import ARRIVAL, MAX, SizingInfeasible
 
 

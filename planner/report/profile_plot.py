@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from ..cautions import SHORT_CAUTION
-from ..design.checks import stretches
+from .._arrays import true_runs
 from ..design.results import Plan
 from .files import atomic_path
 
@@ -141,7 +141,7 @@ def _draw_ground_and_pipe(ax, axp, prof, km, view: slice, base: float) -> None:
     ax.plot(km[view], prof.ground_m[view], color="#6b5a3e", lw=1.0)
     ax.plot(km[view], prof.pipe_m[view], color="black", lw=1.6,
             label=f"pipe ({prof.cover_m:g} m cover)")
-    for n, (a, b) in enumerate(stretches(prof.filled)):
+    for n, (a, b) in enumerate(true_runs(prof.filled)):
         v0, v1 = km[max(a - 1, 0)], km[min(b + 1, km.size - 1)]
         for axis in (ax, axp) if axp is not None else (ax,):
             axis.axvspan(v0, v1, facecolor="none", edgecolor="#b00000", hatch="///", lw=0.0,
