@@ -29,7 +29,7 @@ from ..units import MM, G
 from .explain import explain_infeasible
 from .results import Stretch
 from .sizing import SizingInfeasible, SizingProblem, SizingResult, solve_sizing
-from .whole import solve_whole, solve_whole_pieces
+from .whole import solve_whole, solve_whole_parts
 
 if TYPE_CHECKING:                        # type names only: the scenario is read elsewhere
     from ..scenario import Scenario
@@ -264,7 +264,7 @@ def solve_design(problem: SizingProblem, final: str, where) -> SizingResult:
     """
     try:
         if final == "pieces":
-            return solve_whole_pieces(problem)
+            return solve_whole_parts(problem)
         lp = solve_sizing(problem)
         if final == "lp":
             return lp

@@ -300,3 +300,25 @@ def test_tree_whole_pieces_equal_enumeration(seed):
     choice = [int(np.argmax(res.lengths[r])) for rr in rows for r in rr]
     cost, ok = tree_physics(tree, opts, choice)
     assert ok and cost == pytest.approx(best, rel=1e-4)
+
+
+@pytest.mark.parametrize("seed", range(16))
+def test_parts_below_each_tank_solved_apart_equal_enumeration(seed):
+    """A break-pressure tank restarts the energy line: the programme splits into parts
+    (whole.parts), solved one by one; their sum is still the optimum of one pipe per
+    piece over the whole line, by exhaustive enumeration."""
+    from planner.design.whole import parts, solve_whole_parts
+
+    opts = _options()
+    line = random_line(seed, tank=True)
+    p = programme(line, opts)
+    assert len(parts(p)) == 2
+    best = best_by_enumeration(line, opts)
+    if not np.isfinite(best):
+        with pytest.raises(DesignError):
+            solve_whole_parts(p, mip_rel_gap=0.0)
+        return
+    res = solve_whole_parts(p, mip_rel_gap=0.0)
+    cost, ok = physics(line, opts, chosen(p, res))
+    assert ok and cost == pytest.approx(best, rel=1e-6)
+    assert res.lower_bound <= res.cost + 1e-9 and res.split_pipe_cost <= res.cost + 1e-7
