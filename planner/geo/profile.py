@@ -127,15 +127,37 @@ def _densify_planar(xv: NDArray, yv: NDArray, spacing: float):
     return x, y, chain, vertex_index
 
 
+#: Geodesic stations are computed at most this far apart [m]; points between them are
+#: interpolated linearly in lon/lat.  Over 100 m a geodesic departs from that chord by
+#: about L^2 / (8 R) = 0.2 mm (R the Earth's radius), far below any DEM's precision.
+GEODESIC_STATION_M = 100.0
+
+
 def _densify_geodesic(lon: NDArray, lat: NDArray, spacing: float):
-    """Points along geodesics at most ``spacing`` metres apart, vertices kept."""
+    """Points along geodesics at most ``spacing`` metres apart, vertices kept.
+
+    Chainage is exact (geodesic distance on the WGS84 ellipsoid, pyproj's Geod); the
+    positions come from geodesic stations every :data:`GEODESIC_STATION_M` at most.
+    """
     az, _, seg = _GEOD.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
     seg, az = np.asarray(seg), np.asarray(az)
     nseg = np.maximum(1, np.ceil(seg / spacing - 1e-9)).astype(np.int64)
     k = np.repeat(np.arange(seg.size), nseg)
     first = np.repeat(np.cumsum(nseg) - nseg, nseg)
     t = (np.arange(nseg.sum()) - first) / nseg[k]
-    plon, plat, _ = _GEOD.fwd(lon[k], lat[k], az[k], t * seg[k])
+    # geodesic stations on each segment (both ends included), then linear between them
+    nst = np.maximum(1, np.ceil(seg / GEODESIC_STATION_M)).astype(np.int64)
+    ks = np.repeat(np.arange(seg.size), nst + 1)
+    ts = (np.arange(ks.size) - np.repeat(np.cumsum(nst + 1) - (nst + 1), nst + 1)) / nst[ks]
+    slon, slat, _ = _GEOD.fwd(lon[ks], lat[ks], az[ks], ts * seg[ks])
+    slon, slat = np.asarray(slon), np.asarray(slat)
+    base = np.cumsum(nst + 1) - (nst + 1)                 # first station of each segment
+    pos = t * nst[k]                                       # station coordinate of each point
+    i = np.minimum(np.floor(pos).astype(np.int64), nst[k] - 1)
+    f = pos - i
+    a, b = base[k] + i, base[k] + i + 1
+    plon = slon[a] + f * (slon[b] - slon[a])
+    plat = slat[a] + f * (slat[b] - slat[a])
     x = np.append(plon, lon[-1])
     y = np.append(plat, lat[-1])
     chain = np.append(np.concatenate([[0.0], np.cumsum(seg)])[k] + t * seg[k], seg.sum())
@@ -300,8 +322,10 @@ def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum)
         if not spacing > 0:
             raise InputError(f"spacing must be positive, got {spacing_m!r} m")
         lon, lat, chain, vidx = _densify_geodesic(lonv, latv, spacing)
-        to_dem = Transformer.from_crs(WGS84, grid.crs, always_xy=True)
-        dx, dy = to_dem.transform(lon, lat)
+        if CRS.from_user_input(grid.crs).equals(WGS84, ignore_axis_order=True):
+            dx, dy = lon, lat                        # the DEM is in lon/lat on WGS84 already
+        else:
+            dx, dy = Transformer.from_crs(WGS84, grid.crs, always_xy=True).transform(lon, lat)
         work = utm_crs_for(float(np.mean(lonv)), float(np.mean(latv)))
         x, y = Transformer.from_crs(WGS84, work, always_xy=True).transform(lon, lat)
         notes.append(f"chainage is geodesic on the WGS84 ellipsoid; x, y in {work.to_string()}")
