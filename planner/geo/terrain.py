@@ -237,9 +237,12 @@ def _sample_blocks(ds, x: NDArray, y: NDArray, *, clamp: bool = False) -> _Sampl
     if bh < 16 or bw < 16:          # striped: read square windows instead of strips
         bh = bw = VIRTUAL_BLOCK
     nbj = -(-w // bw)
-    block_ids = np.unique(np.concatenate([
-        (r0 + dr) // bh * nbj + (c0 + dc) // bw for dr in (0, 1) for dc in (0, 1)]))
-    lut = np.full(-(-h // bh) * nbj, -1, dtype=np.int64)
+    needed = np.zeros(-(-h // bh) * nbj, dtype=bool)      # the blocks holding a neighbour
+    for dr in (0, 1):
+        for dc in (0, 1):
+            needed[(r0 + dr) // bh * nbj + (c0 + dc) // bw] = True
+    block_ids = np.flatnonzero(needed)
+    lut = np.full(needed.size, -1, dtype=np.int64)
     dtype = np.float64 if ds.dtypes[0] == "float64" else np.float32
     stack = np.empty((block_ids.size, bh, bw), dtype=dtype)
     nodata = ds.nodata
