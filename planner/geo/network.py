@@ -25,7 +25,7 @@ from shapely.geometry import LineString
 from shapely.ops import substring
 
 from ..errors import InputError, InputFileError
-from .profile import utm_crs_for
+from .geodesy import utm_crs_for
 from .route import WGS84, VECTOR_SUFFIXES, _check_lonlat
 
 

@@ -114,7 +114,7 @@ def test_utm_zone_by_formula_agrees_with_pyprojs_database():
     from pyproj.aoi import AreaOfInterest
     from pyproj.database import query_utm_crs_info
 
-    from planner.geo.profile import utm_crs_for
+    from planner.geo.geodesy import utm_crs_for
 
     rng = np.random.default_rng(7)
     for lon, lat in zip(rng.uniform(-180, 180, 60), rng.uniform(-80, 84, 60)):
@@ -128,12 +128,12 @@ def test_geodesic_densifying_stays_on_pyprojs_geodesic():
     exact geodesic points (pyproj's Geod.fwd, Karney 2013), and chainage is exact."""
     from pyproj import Geod
 
-    from planner.geo.profile import _densify_geodesic
+    from planner.geo.geodesy import densify_geodesic
 
     g = Geod(ellps="WGS84")
     lon = np.array([36.0, 36.3, 36.31, 37.0])
     lat = np.array([-4.5, -4.2, -4.2, -4.9])
-    x, y, chain, vidx = _densify_geodesic(lon, lat, 5.0)
+    x, y, chain, vidx = densify_geodesic(lon, lat, 5.0)
     az, _, seg = (np.asarray(a) for a in g.inv(lon[:-1], lat[:-1], lon[1:], lat[1:]))
     k = np.searchsorted(np.concatenate([[0.0], np.cumsum(seg)]), chain[:-1], side="right") - 1
     along = chain[:-1] - np.concatenate([[0.0], np.cumsum(seg)])[k]
