@@ -209,6 +209,47 @@ def _bilinear(grid: NDArray, cf: NDArray, rf: NDArray) -> NDArray:
             + grid[r0 + 1, c0] * (1 - fx) * fy + grid[r0 + 1, c0 + 1] * fx * fy)
 
 
+#: Blocks read by a second thread, with its own handle, when a route needs at least
+#: this many (GDAL decompresses outside Python's lock; a handle is not shared between
+#: threads).  A choice of ours: below it the second handle costs more than it saves.
+PARALLEL_BLOCKS = 32
+
+
+def _read_blocks(ds, wins, stack, shape, dtype) -> None:
+    """Read the windows ``wins`` of band 1 into ``stack``, partial edge blocks NaN-padded.
+
+    In two threads when there are many and a core to spare.
+    """
+    import os
+
+    def read(handle, ks):
+        for k in ks:
+            win = wins[k]
+            if win.width == shape[1] and win.height == shape[0]:
+                handle.read(1, window=win, out=stack[k])
+            else:                               # a partial block at the right or bottom edge
+                stack[k] = np.nan
+                stack[k, : int(win.height), : int(win.width)] = handle.read(
+                    1, window=win, out_dtype=dtype)
+
+    ks = list(range(len(wins)))
+    if len(ks) < PARALLEL_BLOCKS or (os.cpu_count() or 1) < 2 or not Path(ds.name).is_file():
+        read(ds, ks)
+        return
+    import threading
+
+    import rasterio
+
+    def other():
+        with rasterio.open(ds.name) as handle:
+            read(handle, ks[1::2])
+
+    t = threading.Thread(target=other)
+    t.start()
+    read(ds, ks[0::2])
+    t.join()
+
+
 def _sample_blocks(ds, x: NDArray, y: NDArray, *, clamp: bool = False) -> _Sampled:
     """Bilinear sampling of one dataset, reading only the blocks the points need.
 
@@ -246,15 +287,12 @@ def _sample_blocks(ds, x: NDArray, y: NDArray, *, clamp: bool = False) -> _Sampl
     dtype = np.float64 if ds.dtypes[0] == "float64" else np.float32
     stack = np.empty((block_ids.size, bh, bw), dtype=dtype)
     nodata = ds.nodata
+    wins = []
     for k, bid in enumerate(block_ids):
         bi, bj = divmod(int(bid), nbj)
-        win = Window(bj * bw, bi * bh, min(bw, w - bj * bw), min(bh, h - bi * bh))
-        if win.width == bw and win.height == bh:
-            ds.read(1, window=win, out=stack[k])
-        else:                                   # a partial block at the right or bottom edge
-            stack[k] = np.nan
-            stack[k, : int(win.height), : int(win.width)] = ds.read(1, window=win, out_dtype=dtype)
+        wins.append(Window(bj * bw, bi * bh, min(bw, w - bj * bw), min(bh, h - bi * bh)))
         lut[bid] = k
+    _read_blocks(ds, wins, stack, (bh, bw), dtype)
     if nodata is not None and not np.isnan(nodata):
         stack[stack == dtype(nodata)] = np.nan
     scale, offset = ds.scales[0], ds.offsets[0]
