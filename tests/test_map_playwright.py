@@ -96,3 +96,41 @@ def test_markup_in_names_is_shown_as_text(page, demo_folder, tmp_path):
         assert pg.evaluate("window.pwned") is None
     finally:
         pg.close()
+
+
+def test_names_cannot_run_script_in_the_map(page, demo_folder, tmp_path):
+    """Payloads for the HTML, attribute, script and template-literal contexts in every
+    name the map shows (project, source, outlet, tank): no dialog opens, no script runs,
+    and the names read as typed (folium puts tooltips and popups in JS template strings)."""
+    evil = ("T`${alert(3)}`${window.pwned=1}\\`</script><script>alert(4)</script>"
+            "\"'><img src=x onerror=alert(5)>")
+    text = (demo_folder / "scenario_given_pipe.toml").read_text()
+    lit = f"'''{evil}'''"
+    text = text.replace('name = "Varo spring - Tamsel - Orun fields gravity main (demo)"',
+                        f"name = {lit}").replace('name = "Orun fields hydrant"', f"name = {lit}")
+    text = text.replace('name = "Varo spring box"', f"name = {lit}")
+    text = text.replace('dem = "dem.tif"', f'dem = "{(demo_folder / "dem.tif").as_posix()}"')
+    text = text.replace('file = "route.geojson"', f'file = "{(demo_folder / "route.geojson").as_posix()}"')
+    (tmp_path / "s.toml").write_text(text)
+    out = tmp_path / "out"
+    res = CliRunner().invoke(main, ["plan", str(tmp_path / "s.toml"), "--out", str(out)])
+    assert res.exit_code in (0, 2), res.output
+    pg = page[0].context.browser.new_page(viewport={"width": 1200, "height": 900})
+    dialogs = []
+    pg.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
+    try:
+        pg.route("**/*", lambda r: r.continue_() if r.request.url.startswith(("file:", "data:"))
+                 else r.abort())
+        pg.goto((out / "map.html").as_uri())
+        pg.wait_for_selector(".leaflet-overlay-pane path")
+        for k in range(pg.locator("path.plan-marker").count()):
+            pg.locator("path.plan-marker").nth(k).dispatch_event("click")
+            pg.locator(".leaflet-popup-content").last.wait_for()
+            pg.locator("path.plan-marker").nth(k).dispatch_event("mouseover")
+        texts = pg.locator(".leaflet-popup-content").all_inner_texts()
+        assert any(t.startswith(evil) for t in texts), texts        # shown as typed
+        assert evil in pg.locator("body").inner_text()               # the heading too
+        assert pg.evaluate("window.pwned") is None and not dialogs, dialogs
+        assert pg.locator("img[src=x]").count() == 0
+    finally:
+        pg.close()

@@ -17,6 +17,7 @@ import numpy as np
 from ..cautions import SHORT_CAUTION
 from .._arrays import true_runs
 from ..design.results import Plan
+from .mpl import pyplot
 from .files import atomic_path
 
 
@@ -60,10 +61,7 @@ def _class_band(ax, plan: Plan, km, base, top):
 
 def draw_profile(plan: Plan, *, ax=None, figsize=(14.0, 8.0)):
     """Draw the whole line's profile on one figure; return the matplotlib Figure."""
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    plt = pyplot()
     from matplotlib.layout_engine import ConstrainedLayoutEngine
 
     if ax is None:

@@ -21,6 +21,7 @@ from pathlib import Path
 import numpy as np
 
 from ..cautions import CAUTIONS
+from .mpl import pyplot
 from .files import atomic_path
 from .paper import SHEETS
 from .profile_plot import axes_size_in, draw_panels
@@ -64,10 +65,8 @@ def key_points(plan, lo: float, hi: float, *, station_m: float = 250.0, max_poin
 def draw_sheet(plan, window, number: int, total: int, *, sheet: str = "A3",
                revision: str = "A", date: str | None = None):
     """One sheet; returns the matplotlib Figure."""
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    plt = pyplot()
+    from matplotlib.patches import Rectangle
 
     w_mm, h_mm = SHEETS[sheet]
     fig = plt.figure(figsize=(w_mm / 25.4, h_mm / 25.4))
@@ -128,7 +127,7 @@ def draw_sheet(plan, window, number: int, total: int, *, sheet: str = "A3",
         ("chainage", f"{lo:,.0f} to {hi:,.0f} m"),
         ("sheet", f"{number} of {total}"),
     ]
-    block.add_patch(matplotlib.patches.Rectangle((0, 0), 1, 1, fill=False, lw=1.2,
+    block.add_patch(Rectangle((0, 0), 1, 1, fill=False, lw=1.2,
                                                  transform=block.transAxes))
     for k, (label, text) in enumerate(lines):
         y = 0.92 - k * 0.105
@@ -140,17 +139,14 @@ def draw_sheet(plan, window, number: int, total: int, *, sheet: str = "A3",
 def write_sheets(plan, folder: str | Path, *, stem: str = "profile", sheet: str = "A3",
                  km_per_sheet: float = 2.0, revision: str = "A", date: str | None = None):
     """Write ``<stem>.pdf`` (all sheets) and ``<stem>_sheetN.svg``, each atomically."""
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    plt = pyplot()
     from matplotlib.backends.backend_pdf import PdfPages
 
     folder = Path(folder)
     out = {}
     wins = windows(plan.profile.length_m, km_per_sheet)
     with atomic_path(folder / f"{stem}.pdf", suffix=".pdf") as tmp:
-        with matplotlib.rc_context({"pdf.fonttype": 42, "svg.fonttype": "none"}), \
+        with plt.rc_context({"pdf.fonttype": 42, "svg.fonttype": "none"}), \
                 PdfPages(tmp) as pdf:
             for k, win in enumerate(wins, start=1):
                 fig = draw_sheet(plan, win, k, len(wins), sheet=sheet, revision=revision, date=date)

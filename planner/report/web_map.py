@@ -15,6 +15,7 @@ from typing import cast
 import numpy as np
 
 from ..cautions import SHORT_CAUTION
+from .mpl import pyplot
 from .files import write_text
 from .offline import make_offline
 
@@ -79,10 +80,7 @@ def contour_lines(grid: np.ndarray, transform, crs, *, target: int = 25):
     The interval is the round number (1, 2, 5 x 10^k m) that gives about ``target``
     levels over the window's relief.
     """
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
+    plt = pyplot()
     from pyproj import Transformer
 
     z = np.asarray(grid, dtype=float)
@@ -238,9 +236,20 @@ def _add_line(pl, cmap, labels: list[str], route, by_size) -> None:
         seg = slice(st.start_index, st.end_index + 1)
         folium.PolyLine(np.column_stack([prof.lat[seg], prof.lon[seg]]).tolist(), weight=6,
                         color=_PALETTE[labels.index(st.option.label) % len(_PALETTE)],
-                        tooltip=html.escape(f"{st.option.label}: {st.chainage_m:,.0f} to "
+                        tooltip=_as_text(f"{st.option.label}: {st.chainage_m:,.0f} to "
                                             f"{st.chainage_end_m:,.0f} m, {st.length_m:,.0f} m"),
                         class_name="pipe-stretch").add_to(by_size)
+
+
+def _as_text(text: str) -> str:
+    """User text as inert HTML for a tooltip or popup.
+
+    folium puts tooltip and popup HTML inside JavaScript template literals (backquoted
+    strings), where HTML escaping alone leaves a backquote, ``${...}`` and a backslash
+    live; they become character references here, shown as themselves.
+    """
+    return (html.escape(str(text), quote=True).replace("\\", "&#92;").replace("`", "&#96;")
+            .replace("$", "&#36;"))
 
 
 def _add_marker(marks, prof, i: int, label: str, popup: str, colour: str, radius: int = 8) -> None:
@@ -249,7 +258,7 @@ def _add_marker(marks, prof, i: int, label: str, popup: str, colour: str, radius
 
     folium.CircleMarker([float(prof.lat[i]), float(prof.lon[i])], radius=radius,
                         color="black", weight=2, fill=True, fill_color=colour,
-                        fill_opacity=0.95, tooltip=html.escape(label),
+                        fill_opacity=0.95, tooltip=_as_text(label),
                         popup=folium.Popup(popup, max_width=320),
                         class_name="plan-marker").add_to(marks)
 
@@ -267,7 +276,7 @@ def _add_marks(pl, marks, outlet_risk: dict, *, with_source: bool) -> None:
     with_source : bool
         Whether this plan starts at the source (the first plan).
     """
-    esc = html.escape
+    esc = _as_text
     prof = pl.profile
     if with_source:
         source_name = pl.scenario.source.name
@@ -299,7 +308,7 @@ def _add_features(pl, valves) -> None:
     """Add a marker for each of a plan's air valves and washouts, with its rule and sizes [mm, m]."""
     import folium
 
-    esc = html.escape
+    esc = _as_text
     prof = pl.profile
     crest_risk = dict(pl.uncertainty.crests) if pl.uncertainty is not None else {}
     for f in pl.features:
@@ -323,7 +332,7 @@ def _add_heading_and_legend(m, heading_text: str) -> None:
     import folium
     from branca.element import Figure
 
-    esc = html.escape
+    esc = _as_text
     heading = (f"<div style='position:fixed;top:10px;left:60px;z-index:1000;background:white;"
                f"padding:6px 10px;border:1px solid #888;font:13px sans-serif;max-width:60%'>"
                f"<b>{esc(heading_text)}</b><br>{esc(SHORT_CAUTION)}</div>")
