@@ -62,18 +62,28 @@ def test_popup_and_screenshot(page, tmp_path):
     assert img.std() > 0.05
 
 
-def test_markup_in_names_is_shown_as_text(page, demo_folder, tmp_path):
-    """A project and an outlet named with markup appear as text in the map and the report."""
-    evil = 'Orun <img src=x onerror="window.pwned=1"> <b>fields</b>'
+def _planned_with_names(demo_folder, tmp_path, name: str, *, source: bool = False):
+    """``gravplan plan`` of the demo's check-mode line with the project, an outlet (and
+    the source) named ``name`` (a TOML literal string: no escapes); its output folder."""
+    lit = f"'''{name}'''"
     text = (demo_folder / "scenario_given_pipe.toml").read_text()
     text = text.replace('name = "Varo spring - Tamsel - Orun fields gravity main (demo)"',
-                        f"name = '{evil}'").replace('name = "Orun fields hydrant"', f"name = '{evil}'")
+                        f"name = {lit}").replace('name = "Orun fields hydrant"', f"name = {lit}")
+    if source:
+        text = text.replace('name = "Varo spring box"', f"name = {lit}")
     text = text.replace('dem = "dem.tif"', f'dem = "{(demo_folder / "dem.tif").as_posix()}"')
     text = text.replace('file = "route.geojson"', f'file = "{(demo_folder / "route.geojson").as_posix()}"')
     (tmp_path / "s.toml").write_text(text)
     out = tmp_path / "out"
     res = CliRunner().invoke(main, ["plan", str(tmp_path / "s.toml"), "--out", str(out)])
     assert res.exit_code in (0, 2), res.output
+    return out
+
+
+def test_markup_in_names_is_shown_as_text(page, demo_folder, tmp_path):
+    """A project and an outlet named with markup appear as text in the map and the report."""
+    evil = 'Orun <img src=x onerror="window.pwned=1"> <b>fields</b>'
+    out = _planned_with_names(demo_folder, tmp_path, evil)
     # one playwright per process: a new page of the module's browser
     pg = page[0].context.browser.new_page(viewport={"width": 1200, "height": 900})
     try:
@@ -104,17 +114,7 @@ def test_names_cannot_run_script_in_the_map(page, demo_folder, tmp_path):
     and the names read as typed (folium puts tooltips and popups in JS template strings)."""
     evil = ("T`${alert(3)}`${window.pwned=1}\\`</script><script>alert(4)</script>"
             "\"'><img src=x onerror=alert(5)>")
-    text = (demo_folder / "scenario_given_pipe.toml").read_text()
-    lit = f"'''{evil}'''"
-    text = text.replace('name = "Varo spring - Tamsel - Orun fields gravity main (demo)"',
-                        f"name = {lit}").replace('name = "Orun fields hydrant"', f"name = {lit}")
-    text = text.replace('name = "Varo spring box"', f"name = {lit}")
-    text = text.replace('dem = "dem.tif"', f'dem = "{(demo_folder / "dem.tif").as_posix()}"')
-    text = text.replace('file = "route.geojson"', f'file = "{(demo_folder / "route.geojson").as_posix()}"')
-    (tmp_path / "s.toml").write_text(text)
-    out = tmp_path / "out"
-    res = CliRunner().invoke(main, ["plan", str(tmp_path / "s.toml"), "--out", str(out)])
-    assert res.exit_code in (0, 2), res.output
+    out = _planned_with_names(demo_folder, tmp_path, evil, source=True)
     pg = page[0].context.browser.new_page(viewport={"width": 1200, "height": 900})
     dialogs = []
     pg.on("dialog", lambda d: (dialogs.append(d.message), d.dismiss()))
