@@ -119,7 +119,8 @@ def _prepare(sc: Scenario, lay: Layout) -> _System:
     options, rating_head = pipe_options(sc, rho)
     cand = [candidate_data(options, q, rho, nu, cr.friction) for q in flows]
     return _System(sc=sc, lay=lay, flows=flows, total_in=total_in, options=options,
-                   rating_head=rating_head, wave=wave_speeds(options, rho), cand=cand,
+                   rating_head=rating_head,
+                   wave=wave_speeds(options, rho, water.bulk_modulus(cr.temperature_c)), cand=cand,
                    nu=float(nu), rho=float(rho))
 
 

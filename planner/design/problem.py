@@ -66,13 +66,18 @@ def candidate_data(options, flows, rho, nu, method):
     return np.atleast_2d(v), np.atleast_2d(v) ** 2 / (2 * G), np.atleast_2d(loss)
 
 
-def wave_speeds(options, rho):
-    """Pressure-wave speed of each option [m/s] (NaN where its wall is not known)."""
+def wave_speeds(options, rho, bulk_modulus):
+    """Pressure-wave speed of each option [m/s] (NaN where its wall is not known).
+
+    Korteweg's thin-wall form with the mean diameter (outside diameter less one wall)
+    and the water's adiabatic bulk modulus at the design temperature [Pa]
+    (:func:`~planner.hydraulics.water.bulk_modulus`).
+    """
     out = []
     for o in options:
         if np.isfinite(o.elastic_modulus) and np.isfinite(o.wall) and np.isfinite(o.outside_diameter):
             out.append(sg.wave_speed(o.outside_diameter - o.wall, o.wall, o.elastic_modulus,
-                                     density=rho))
+                                     density=rho, bulk_modulus=bulk_modulus))
         else:
             out.append(float("nan"))
     return np.array(out)

@@ -73,6 +73,49 @@ def density(temperature_c):
     return as_output(rho)
 
 
+def speed_of_sound(temperature_c):
+    """Speed of sound in pure water at 101.325 kPa [m/s].
+
+    Parameters
+    ----------
+    temperature_c : float or ndarray
+        Water temperature [degC], 0 to 95.
+
+    Notes
+    -----
+    Marczak's fifth-degree polynomial [1]_ (coefficients from memory; the tests check
+    it against IAPWS-95 within 0.005 % from 0 to 90 degC).
+
+    References
+    ----------
+    .. [1] W. Marczak, "Water as a standard in the measurements of speed of sound in
+       liquids", J. Acoust. Soc. Am. 102(5), 2776-2779, 1997.
+
+    Examples
+    --------
+    >>> round(float(speed_of_sound(20.0)), 1)
+    1482.4
+    """
+    t = _check_range(temperature_c)
+    c = (1.402385e3 + 5.038813 * t - 5.799136e-2 * t**2 + 3.287156e-4 * t**3
+         - 1.398845e-6 * t**4 + 2.787860e-9 * t**5)
+    return as_output(c)
+
+
+def bulk_modulus(temperature_c):
+    """Adiabatic bulk modulus of water, rho c^2, at 101.325 kPa [Pa].
+
+    The modulus the pressure wave sees (a surge is fast, so adiabatic): density by
+    Kell (:func:`density`) times the square of :func:`speed_of_sound`.
+
+    Examples
+    --------
+    >>> round(float(bulk_modulus(20.0)) / 1e9, 3)
+    2.193
+    """
+    return as_output(np.asarray(density(temperature_c)) * np.asarray(speed_of_sound(temperature_c)) ** 2)
+
+
 def dynamic_viscosity(temperature_c):
     """Dynamic viscosity of liquid water at atmospheric pressure.
 

@@ -44,3 +44,38 @@ def test_vectorised_and_range_warning():
     assert water.kinematic_viscosity(t).shape == (2,)
     with pytest.warns(UserWarning, match="outside"):
         water.density(120.0)
+
+
+@pytest.mark.parametrize("t", [0.0, 5.0, 10.0, 20.0, 30.0, 40.0, 60.0, 90.0])
+def test_speed_of_sound_and_bulk_modulus_against_iapws95(t):
+    """IAPWS-95 (Wagner & Pruss 2002) at 0.101325 MPa, via iapws.IAPWS95: the speed of
+    sound w and the adiabatic bulk modulus rho w^2 the pressure wave sees."""
+    from planner.hydraulics.water import bulk_modulus, speed_of_sound
+
+    ref = IAPWS95(T=t + 273.15, P=0.101325)
+    assert float(speed_of_sound(t)) == pytest.approx(ref.w, rel=5e-5)
+    assert float(bulk_modulus(t)) == pytest.approx(ref.rho * ref.w ** 2, rel=2e-4)
+
+
+def test_the_design_wave_speed_follows_the_water_temperature(demo_folder):
+    """At 10 degC water is stiffer than at 30 degC (IAPWS-95: 2.094 against 2.268 GPa):
+    the design's wave speed for the same pipe follows it, by Korteweg's formula."""
+    from dataclasses import replace
+
+    from planner import api
+    from planner.hydraulics.surge import wave_speed
+
+    sc = api.load_scenario(demo_folder / "scenario.toml")
+    speeds = {}
+    for t in (10.0, 30.0):
+        plan = api.plan(replace(sc, criteria=replace(sc.criteria, temperature_c=t),
+                                uncertainty=replace(sc.uncertainty, enabled=False)))
+        st = plan.stretches[0]
+        o = st.option
+        ref = IAPWS95(T=t + 273.15, P=0.101325)
+        want = wave_speed(o.outside_diameter - o.wall, o.wall, o.elastic_modulus,
+                          density=ref.rho, bulk_modulus=ref.rho * ref.w ** 2)
+        assert st.wave_speed_mps == pytest.approx(float(want), rel=5e-4)
+        speeds[t] = st
+    assert speeds[10.0].option.label != speeds[30.0].option.label or \
+        speeds[10.0].wave_speed_mps < speeds[30.0].wave_speed_mps
