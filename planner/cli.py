@@ -65,7 +65,7 @@ def main(verbose):
 @click.argument("route", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--dem", "dems", multiple=True, required=True, type=click.Path(path_type=Path),
               help="DEM file (GeoTIFF, VRT, ...); repeat for several tiles.")
-@click.option("--spacing", type=float, default=None,
+@click.option("--spacing", type=click.FloatRange(min=0.0, min_open=True), default=None,
               help="Largest point spacing [m]; default the DEM cell size.")
 @click.option("--cover", type=float, default=default("criteria", "cover_m"), show_default=True,
               help="Cover over the pipe [m].")

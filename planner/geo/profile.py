@@ -15,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 from numpy.typing import NDArray
-from pyproj import CRS, Proj, Transformer
+from pyproj import CRS, Geod, Proj, Transformer
 from shapely.geometry import LineString
 
 from ..errors import InputError, NoDataWarning, TerrainError, TerrainWarning
@@ -250,6 +250,38 @@ def _check_overlap(r: Route, grid: Dem, lonv: NDArray, latv: NDArray) -> None:
         f"lat {latv[0]:.6f}; {where}); check that the route and the DEM are of the same place")
 
 
+#: Most profile points one route may have: 2 million (a 200 km line at 0.1 m) keeps a
+#: profile within a few hundred MB (a choice of ours, stated in docs/scenario.md).
+MAX_PROFILE_POINTS = 2_000_000
+
+
+def _check_size(r: Route, lonv: NDArray, latv: NDArray, spacing: float) -> None:
+    """Refuse, before any array is made, a profile of more than MAX_PROFILE_POINTS."""
+    _, _, seg = Geod(ellps="WGS84").inv(lonv[:-1], latv[:-1], lonv[1:], latv[1:])
+    points = float(np.sum(np.ceil(np.asarray(seg) / spacing))) + 1
+    if points > MAX_PROFILE_POINTS:
+        raise InputError(f"{r.source}: {float(np.sum(seg)):,.0f} m at a spacing of {spacing:g} m "
+                         f"would give {points:,.0f} profile points, more than "
+                         f"{MAX_PROFILE_POINTS:,}; raise route.spacing_m (or the --spacing "
+                         "option) or split the line")
+
+
+def _distortion_notes(grid: Dem, lonv: NDArray, latv: NDArray) -> list[str]:
+    """A note and a warning when the DEM's CRS distorts lengths along the route.
+
+    Given when the scale error at a vertex exceeds :data:`DISTORTION_LIMIT`.
+    """
+    factors = Proj(grid.crs).get_factors(lonv, latv)
+    distortion = float(np.max(np.abs(np.concatenate(
+        [np.asarray(factors.meridional_scale), np.asarray(factors.parallel_scale)]) - 1.0)))
+    if distortion <= DISTORTION_LIMIT:
+        return []
+    note = (f"the DEM's CRS {grid.crs.to_string()} distorts lengths by up to "
+            f"{distortion * 100:.2f} % along this route; chainage is in that CRS's metric")
+    warnings.warn(note, TerrainWarning, stacklevel=4)
+    return [note]
+
+
 def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum) -> Profile:
     lonv, latv = (np.asarray(c, dtype=float) for c in r.line.xy)
     _check_overlap(r, grid, lonv, latv)
@@ -261,6 +293,7 @@ def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum)
         spacing = float(spacing_m or cell_m)
         if not spacing > 0:
             raise InputError(f"spacing must be positive, got {spacing_m!r} m")
+        _check_size(r, lonv, latv, spacing)
         lon, lat, chain, vidx = densify_geodesic(lonv, latv, spacing)
         if CRS.from_user_input(grid.crs).equals(WGS84, ignore_axis_order=True):
             dx, dy = lon, lat                        # the DEM is in lon/lat on WGS84 already
@@ -274,6 +307,7 @@ def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum)
         spacing = float(spacing_m or min(rx, ry) * unit)
         if not spacing > 0:
             raise InputError(f"spacing must be positive, got {spacing_m!r} m")
+        _check_size(r, lonv, latv, spacing)
         to_dem = Transformer.from_crs(WGS84, grid.crs, always_xy=True)
         xv, yv = to_dem.transform(lonv, latv)
         keep = np.ones(xv.size, dtype=bool)
@@ -284,14 +318,7 @@ def _sample(r: Route, grid: Dem, spacing_m, cover_m, max_void_m, vertical_datum)
         chain = chain * unit
         lon, lat = Transformer.from_crs(grid.crs, WGS84, always_xy=True).transform(dx, dy)
         x, y, work = dx * unit, dy * unit, grid.crs
-        factors = Proj(grid.crs).get_factors(lonv, latv)
-        distortion = float(np.max(np.abs(np.concatenate(
-            [np.asarray(factors.meridional_scale), np.asarray(factors.parallel_scale)]) - 1.0)))
-        if distortion > DISTORTION_LIMIT:
-            note = (f"the DEM's CRS {grid.crs.to_string()} distorts lengths by up to "
-                    f"{distortion * 100:.2f} % along this route; chainage is in that CRS's metric")
-            notes.append(note)
-            warnings.warn(note, TerrainWarning, stacklevel=3)
+        notes += _distortion_notes(grid, lonv, latv)
 
     ground, outside = grid.sample(dx, dy)
     if np.any(outside):
