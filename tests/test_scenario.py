@@ -118,3 +118,23 @@ def test_uncertainty_product_must_be_known_unless_sigma_is_given(demo_folder, tm
     (tmp_path / "b.toml").write_text(bad.replace('product = "copernicus-glo90"',
                                                  'product = "copernicus-glo90"\nsigma_m = 2.0'))
     assert load_scenario(tmp_path / "b.toml").uncertainty.sigma_m == 2.0
+
+
+def test_a_catalogue_path_is_read_beside_the_scenario(tmp_path, monkeypatch):
+    """docs/scenario.md: paths inside the file are relative to its folder; a catalogue
+    CSV too, whatever the working directory (built-in names stay names)."""
+    import shutil
+
+    from planner.catalogue.pipes import DATA, load_options
+
+    folder = tmp_path / "project"
+    folder.mkdir()
+    shutil.copy(DATA / "pe100.csv", folder / "our_pipes.csv")
+    head, rest = GOOD.split("[pipe]")
+    text = (head + '[design]\ncatalogues = ["our_pipes.csv", "pvc-u"]\n'
+            + rest[rest.index("[[outlets]]"):])
+    (folder / "s.toml").write_text(text)
+    monkeypatch.chdir(tmp_path)                      # not the scenario's folder
+    sc = load_scenario(folder / "s.toml")
+    assert sc.design.catalogues == (str(folder / "our_pipes.csv"), "pvc-u")
+    assert load_options(sc.design.catalogues)

@@ -14,6 +14,7 @@ import warnings
 from pathlib import Path
 from typing import Any
 
+from ..catalogue.pipes import BUILTIN
 from ..design import demand as dm
 from ..design.uncertainty import PRODUCTS
 from ..errors import InputError, InputFileError, UnitWarning
@@ -138,7 +139,7 @@ def scenario_from_dict(data: dict[str, Any], path: Path) -> Scenario:
     source = _source(sec["source"], "source" in data, problems)
     criteria = _criteria(sec["criteria"], problems)
     pipe = _pipe(sec["pipe"], "pipe" in data, criteria, problems)
-    design = _design(sec["design"], problems) if "design" in data else None
+    design = _design(sec["design"], base, problems) if "design" in data else None
     _pipe_or_design("pipe" in data, "design" in data, problems)
     outlets = _outlets(arrays["outlets"], "outlets" in data, problems)
     tanks = _tanks(arrays["break_pressure_tanks"], route.network, problems)
@@ -395,8 +396,12 @@ def _demand(d: dict, key: str, problems: _Problems):
     return q, basis, volume
 
 
-def _design(d: dict, problems: _Problems) -> Design:
-    """The [design] section: catalogues, size range [m], tank and sizing rules."""
+def _design(d: dict, base: Path, problems: _Problems) -> Design:
+    """The [design] section: catalogues, size range [m], tank and sizing rules.
+
+    A catalogue that is not a built-in name is a CSV path relative to ``base`` (the
+    scenario's folder), as for every other path in the file.
+    """
     values = fields("design", d)
     cats = values["catalogues"]
     if not cats or not all(isinstance(c, str) for c in cats):
@@ -420,6 +425,7 @@ def _design(d: dict, problems: _Problems) -> Design:
         _looks_like_metres(f"design.{key}", d.get(key))
     if d.get("min_size_mm") and d.get("max_size_mm") and d["min_size_mm"] > d["max_size_mm"]:
         problems.add("design.min_size_mm", "must not be above max_size_mm")
+    cats = [c if c.lower() in BUILTIN else str(base / c) for c in cats]
     values.update(catalogues=tuple(cats), materials=tuple(mats) if mats else None,
                   no_tank_zones=tuple(zones))
     return Design(**values)
