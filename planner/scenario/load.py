@@ -396,11 +396,17 @@ def _demand(d: dict, key: str, problems: _Problems):
     return q, basis, volume
 
 
+def _is_path(name: str) -> bool:
+    """Whether a catalogue entry names a file (a .csv, or a path) rather than a built-in."""
+    return name.lower().endswith(".csv") or "/" in name or "\\" in name
+
+
 def _design(d: dict, base: Path, problems: _Problems) -> Design:
     """The [design] section: catalogues, size range [m], tank and sizing rules.
 
-    A catalogue that is not a built-in name is a CSV path relative to ``base`` (the
-    scenario's folder), as for every other path in the file.
+    A catalogue given as a file (a .csv, or a path) is read relative to ``base`` (the
+    scenario's folder), as every other path in the file; other names are built-in
+    catalogues (an unknown one gets a suggestion when it is loaded).
     """
     values = fields("design", d)
     cats = values["catalogues"]
@@ -425,7 +431,7 @@ def _design(d: dict, base: Path, problems: _Problems) -> Design:
         _looks_like_metres(f"design.{key}", d.get(key))
     if d.get("min_size_mm") and d.get("max_size_mm") and d["min_size_mm"] > d["max_size_mm"]:
         problems.add("design.min_size_mm", "must not be above max_size_mm")
-    cats = [c if c.lower() in BUILTIN else str(base / c) for c in cats]
+    cats = [str(base / c) if c.lower() not in BUILTIN and _is_path(c) else c for c in cats]
     values.update(catalogues=tuple(cats), materials=tuple(mats) if mats else None,
                   no_tank_zones=tuple(zones))
     return Design(**values)
