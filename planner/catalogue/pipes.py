@@ -93,6 +93,10 @@ class PipeOption:
 
 
 def _number(row: dict, key: str, where: str, *, positive=True, default=None) -> float:
+    """A finite number from a catalogue row, ``default`` where the cell is empty.
+
+    It must be > 0 (``positive``) or, for a price or a roughness, >= 0.
+    """
     text = (row.get(key) or "").strip()
     if not text:
         if default is not None:
@@ -102,8 +106,12 @@ def _number(row: dict, key: str, where: str, *, positive=True, default=None) -> 
         value = float(text)
     except ValueError:
         raise InputFileError(f"{where}: column {key!r} is not a number ({text!r})") from None
+    if not math.isfinite(value):
+        raise InputFileError(f"{where}: column {key!r} must be a finite number, got {text!r}")
     if positive and not value > 0:
         raise InputFileError(f"{where}: column {key!r} must be positive, got {value:g}")
+    if not positive and value < 0:
+        raise InputFileError(f"{where}: column {key!r} must not be negative, got {value:g}")
     return value
 
 

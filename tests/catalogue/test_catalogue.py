@@ -109,3 +109,15 @@ def test_unknown_material_is_not_derated_as_steel():
     for material in ("PP-R", "GRP"):
         with pytest.raises(ValueError, match="derating of material"):
             temperature_factor(material, 40.0)
+
+
+@pytest.mark.parametrize("cost,words", [("-5", "must not be negative"), ("nan", "finite number"),
+                                        ("inf", "finite number")])
+def test_a_catalogue_price_that_is_no_price_is_refused(tmp_path, cost, words):
+    """A row priced -5 was chosen (pipe cost -10,746.6), and nan was taken: both refused,
+    naming the file, the row and the column."""
+    bad = tmp_path / "mine.csv"
+    bad.write_text("material,label,outside_diameter_mm,inside_diameter_mm,pressure_rating_bar,"
+                   f"roughness_mm,hazen_williams_c,cost_per_m\nPE100,a,110,90,16,0.007,150,{cost}\n")
+    with pytest.raises(InputFileError, match=rf"mine.csv.*row 2.*cost_per_m.*{words}"):
+        load_catalogue(bad)
