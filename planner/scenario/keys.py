@@ -327,6 +327,11 @@ DEMAND_KEYS: dict[str, dict[str, tuple[bool, float | None]]] = {
                    "efficiency": (True, None), "hours_per_day": (True, None)},
 }
 
+#: Ranges of demand keys that would otherwise overflow or mean nothing: (low, high), a
+#: choice of ours (design horizons are some decades, growth some % a year).
+DEMAND_RANGES: dict[str, tuple[float, float]] = {"growth_rate": (-0.2, 0.2),
+                                                 "horizon_years": (0.0, 100.0)}
+
 REQUIRED_SECTIONS = ("project", "route", "source")
 
 

@@ -18,7 +18,7 @@ from ..catalogue.pipes import BUILTIN
 from ..design import demand as dm
 from ..design.uncertainty import PRODUCTS
 from ..errors import InputError, InputFileError, UnitWarning
-from .keys import ARRAYS, DEMAND_KEYS, NUM, REQUIRED_SECTIONS, SECTIONS, Key, fields
+from .keys import ARRAYS, DEMAND_KEYS, DEMAND_RANGES, NUM, REQUIRED_SECTIONS, SECTIONS, Key, fields
 from .model import (Criteria, Design, Drawing, Fitting, Outlet, Pipe, Project, RouteSpec,
                     Scenario, Source, SurveyPoint, Tank, Terrain, UncertaintySpec)
 
@@ -368,6 +368,9 @@ def _demand_values(d: dict, key: str, problems: _Problems) -> tuple[str, dict] |
             problems.add(f"{key}.{k}", f"unknown key for kind {kind!r}; known: {', '.join(spec)}")
         elif isinstance(v, bool) or not isinstance(v, NUM) or not v == v or abs(v) == float("inf"):
             problems.add(f"{key}.{k}", f"expected a finite number, got {v!r}")
+        elif k in DEMAND_RANGES and not DEMAND_RANGES[k][0] <= v <= DEMAND_RANGES[k][1]:
+            lo, hi = DEMAND_RANGES[k]
+            problems.add(f"{key}.{k}", f"expected {lo:g} to {hi:g}, got {v!r}")
         else:
             vals[k] = float(v)
     for k, (required, dflt) in spec.items():
