@@ -46,6 +46,7 @@ class _System:
 
     sc: Scenario
     lay: Layout
+    draws: list                     # per link: (chainage [m], flow [m3/s]) drawn off it
     flows: list                     # per link: flow in each segment [m3/s]
     total_in: NDArray               # per link: flow entering it [m3/s]
     options: list
@@ -89,10 +90,7 @@ def design_layout(sc: Scenario, lay: Layout, *, compare_single_size: bool = True
     required, line_req = _requirements(s)
     if sc.design is None:
         built = [(p, np.zeros(p.n - 1, dtype=np.int64)) for p in lay.profiles]
-        energies, remaps, req_r = tree_exact(s.lay.profiles, built, lay.parents, s.surfaces,
-                                             lay.placed, lay.children, s.total_in, s.options,
-                                             required, line_req, lay.top_level_m,
-                                             lay.low_level_m, s.nu, sc.criteria, lay.point_k)
+        energies, remaps, req_r = _exact(s, built, required, line_req)
         return _results(s, built, energies, remaps, req_r, None, None, True)
     _precheck(s, required, line_req)
     sizing, built, energies, remaps, req_r, converged, problem = _size(s, required, line_req)
@@ -111,14 +109,14 @@ def _prepare(sc: Scenario, lay: Layout) -> _System:
         raise DesignError("no gravity flow is possible:\n  - " + "\n  - ".join(impossible))
     own = [sum(o.flow_m3s for o, k, _ in lay.placed if k == kk) for kk in range(len(profiles))]
     total_in = np.asarray(accumulate_flows(list(lay.parents), own), dtype=float)
-    flows = [segment_flows(prof.chainage_m, _draws(lay, k, prof.chainage_m, prof.length_m,
-                                                   total_in))
+    draws = [_draws(lay, k, prof.chainage_m, prof.length_m, total_in)
              for k, prof in enumerate(profiles)]
+    flows = [segment_flows(prof.chainage_m, d) for prof, d in zip(profiles, draws)]
     rho = water.density(cr.temperature_c)
     nu = water.kinematic_viscosity(cr.temperature_c)
     options, rating_head = pipe_options(sc, rho)
     cand = [candidate_data(options, q, rho, nu, cr.friction) for q in flows]
-    return _System(sc=sc, lay=lay, flows=flows, total_in=total_in, options=options,
+    return _System(sc=sc, lay=lay, draws=draws, flows=flows, total_in=total_in, options=options,
                    rating_head=rating_head,
                    wave=wave_speeds(options, rho, water.bulk_modulus(cr.temperature_c)), cand=cand,
                    nu=float(nu), rho=float(rho))
@@ -174,6 +172,14 @@ def _tanks_and_candidates(s: _System) -> None:
         if shortfall <= 0 or not auto:
             break
         margin += shortfall + 1.0
+
+
+def _exact(s: _System, built, required, line_req):
+    """The exact energy lines of the system built as ``built`` (see :func:`tree_exact`)."""
+    lay = s.lay
+    return tree_exact(lay.profiles, built, lay.parents, s.surfaces, s.draws, s.options,
+                      required, line_req, lay.top_level_m, lay.low_level_m, s.nu,
+                      s.sc.criteria, lay.point_k)
 
 
 def _admissible(s: _System, k: int, prof):
@@ -238,9 +244,7 @@ def _precheck(s: _System, required, line_req) -> None:
     ids = np.array([o.inside_diameter for o in s.options])
     largest = [np.argmax(np.where(a, ids[None, :], -1.0), axis=1) for a in s.allowed]
     built = [(p, big) for p, big in zip(lay.profiles, largest)]
-    energies, _, _ = tree_exact(lay.profiles, built, lay.parents, s.surfaces, lay.placed,
-                                lay.children, s.total_in, s.options, required, line_req,
-                                lay.top_level_m, lay.low_level_m, s.nu, cr, lay.point_k)
+    energies, _, _ = _exact(s, built, required, line_req)
     for k, prof in enumerate(lay.profiles):
         label = s.options[int(largest[k][0])].label
         problems += [s.on(k) + m for m in short_with_largest(
@@ -283,10 +287,7 @@ def _size(s: _System, required, line_req):
         sizing = solve_design(problem, final, lambda i: _where_point(s, offsets, i))
         built = [build_line(prof, sp, sizing.lengths[r], s.options)
                  for prof, sp, r in zip(profiles, splits, rows)]
-        energies, remaps, req_r = tree_exact(profiles, built, lay.parents, s.surfaces,
-                                             lay.placed, lay.children, s.total_in, s.options,
-                                             required, line_req, lay.top_level_m,
-                                             lay.low_level_m, s.nu, cr, lay.point_k)
+        energies, remaps, req_r = _exact(s, built, required, line_req)
         converged = all([tighten(extra[k], profiles[k].chainage_m, built[k][0].chainage_m,
                                  req_r[k] - energies[k].pressure_head)
                          for k in range(len(profiles))])

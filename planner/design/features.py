@@ -27,6 +27,8 @@ import numpy as np
 from numpy.typing import NDArray
 from scipy.signal import find_peaks
 
+from .._arrays import true_runs
+
 M51 = "AWWA Manual M51, ch. 3 (from memory)"
 VINIDEX = "Vinidex, Air valves and scour valves"
 
@@ -270,9 +272,8 @@ def _ascent_washouts(placed: _Placed, a: int, ch: NDArray, z: NDArray, long_asce
     """
     # washout at the foot of long uphill runs
     chainage, taken = placed.chainage, placed.taken
-    rising = np.diff(z) > 0
-    edges = np.flatnonzero(np.diff(np.concatenate([[0], rising.astype(np.int8), [0]])))
-    for s0, s1 in zip(edges[::2], edges[1::2]):
+    for s0, last in true_runs(np.diff(z) > 0):           # segments s0..last rise
+        s1 = last + 1
         if ch[s1] - ch[s0] >= long_ascent_m and s0 > 0 and \
                 not any(k == "washout" and abs(chainage[i] - ch[s0]) < grade_window_m
                         for k, i in taken):

@@ -328,22 +328,19 @@ def tree_problem(profiles, parents, surfaces, reaches_local, splits_local, allow
     return problem, rows_of
 
 
-def tree_exact(profiles, built, parents, surfaces, placed, children, total_in, options,
-                required, line_req, top, low, nu, cr, point_k):
+def tree_exact(profiles, built, parents, surfaces, draws, options,
+               required, line_req, top, low, nu, cr, point_k):
     """Energy lines of the built tree, exactly, and the pressure required at every point.
 
-    At a size change the line's requirement is interpolated; an outlet's minimum holds
-    at the outlet only.
+    ``draws`` holds, per link, the (chainage [m], flow [m^3/s]) drawn off it.  At a size
+    change the line's requirement is interpolated; an outlet's minimum holds at the
+    outlet only.
     """
     datas, remaps, reqs = [], [], []
     for k, (prof, (refined, seg_opt)) in enumerate(zip(profiles, built)):
         ch, rch = prof.chainage_m, refined.chainage_m
         remap = np.searchsorted(rch, ch)
-        draws = [(float(ch[j]), o.flow_m3s) for o, kk, j in placed if kk == k]
-        down = sum(total_in[c] for c in children[k])
-        if down > 0:
-            draws.append((refined.length_m, down))
-        flows = segment_flows(rch, draws)
+        flows = segment_flows(rch, draws[k])
         tanks = [FreeSurface(int(remap[f.index]), f.static_level, f.operating_level)
                  for f in surfaces[k][1:]]
         pipe = PipeHydraulics(
