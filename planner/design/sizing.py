@@ -156,6 +156,8 @@ class SizingResult:
     #: (LP only) reduced cost of each length [currency/m]: a design with length x more
     #: of a candidate than the LP costs at least ``reduced_cost * x`` more
     reduced_cost: NDArray[np.float64] | None = None
+    #: candidate lengths set aside by their reduced costs before the MILP
+    set_aside: int = 0
 
 
     @property

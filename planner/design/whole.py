@@ -232,6 +232,11 @@ def _part(p: SizingProblem, reaches: list[int]) -> SizingProblem:
                    parent_point=None if p.parent_point is None else p.parent_point[idx])
 
 
+def _set_aside_note(count: int) -> str:
+    return (f"{count:,} candidate lengths that no cheaper whole design can use were set aside "
+            "by the LP's reduced costs")
+
+
 def solve_whole_parts(p: SizingProblem, *, time_limit: float = MIP_TIME_LIMIT,
                       mip_rel_gap: float = MIP_GAP) -> SizingResult:
     """:func:`solve_whole_pieces` on each independent part (:func:`parts`), summed.
@@ -250,11 +255,9 @@ def solve_whole_parts(p: SizingProblem, *, time_limit: float = MIP_TIME_LIMIT,
     whole = [r for r in results if r.method != "split-pipe LP"]
     notes = [f"solved as {len(groups)} independent parts, one per free surface and the "
              "reaches it feeds"]
-    dropped = [n for r in results for n in r.notes if "reduced costs" in n]
-    if dropped:
-        total = sum(int(n.split()[0].replace(",", "")) for n in dropped)
-        notes.append(f"{total:,} candidate lengths that no cheaper whole design can use were "
-                     "set aside by the LP's reduced costs")
+    set_aside = sum(r.set_aside for r in results)
+    if set_aside:
+        notes.append(_set_aside_note(set_aside))
     statuses = {r.status for r in results}
     return SizingResult(
         lengths=np.sum([r.lengths for r in results], axis=0), cost=cost,
@@ -285,11 +288,11 @@ def solve_whole_pieces(p: SizingProblem, *, rounds: int = 0, time_limit: float =
     notes = []
     bound = lp.cost
     lengths, cost, status = lp.lengths, lp.cost, lp.status
+    set_aside = 0
     if _split(p, lp.lengths).any():
-        p, dropped = _fixed_by_reduced_cost(p, lp)
-        if dropped:
-            notes.append(f"{dropped:,} candidate lengths that no cheaper whole design can use "
-                         "were set aside by the LP's reduced costs")
+        p, set_aside = _fixed_by_reduced_cost(p, lp)
+        if set_aside:
+            notes.append(_set_aside_note(set_aside))
     for r in range(rounds + 1):
         split = _split(p, res.lengths)
         lengths, cost, status = res.lengths, res.cost, res.status
@@ -309,4 +312,5 @@ def solve_whole_pieces(p: SizingProblem, *, rounds: int = 0, time_limit: float =
                         gap=max(gap, 0.0), lower_bound=bound, split_pipe_cost=lp.cost,
                         binding=lp.binding,
                         seconds=lp.seconds + (0.0 if res is lp else res.seconds),
-                        variables=res.variables, constraints=res.constraints, notes=tuple(notes))
+                        variables=res.variables, constraints=res.constraints, notes=tuple(notes),
+                        set_aside=set_aside)
