@@ -27,8 +27,7 @@ from .report.web_map import write_map
 from .scenario import Scenario, load_scenario
 
 __all__ = ["load_scenario", "read_route", "sample_profile", "profile_from_survey",
-           "build_profile", "plan", "plan_any", "write_outputs", "write_any",
-           "write_network_outputs", "Plan", "Profile", "Scenario"]
+           "build_profile", "plan", "plan_any", "write_outputs", "Plan", "Profile", "Scenario"]
 
 plan = plan_scenario
 
@@ -50,14 +49,35 @@ def _terrain_window(plans, margin_m: float = 1500.0):
         return grid, transform, dem.crs.to_wkt()
 
 
-def write_outputs(plan_: Plan, out_dir: str | Path) -> dict[str, Path]:
-    """Write a line's deliverables into ``out_dir`` (see :func:`_write_set`).
+def write_outputs(plan_, out_dir: str | Path, *, beside: dict | None = None) -> dict[str, Path]:
+    """Write a line's or a branched system's deliverables as one result set in ``out_dir``.
 
-    Each file is written atomically, so an interrupted run leaves the previous file of
-    that name intact.
+    The set is written into a staging folder beside ``out_dir`` and swapped in whole
+    (:func:`planner.report.files.output_set`): the folder holds this run's files or
+    the previous run's, never a mix, and a second run into it meanwhile is refused.
+    ``beside`` maps subfolder names to further plans written into the same set (the
+    demo's branched system).  Returns each file's final path by name.
     """
+    from .report.files import output_set
+
     out = Path(out_dir)
+    with output_set(out) as stage:
+        written = _write_plan(plan_, stage)
+        for name, other in (beside or {}).items():
+            written.update({f"{name}/{k}": v
+                            for k, v in _write_plan(other, stage / name).items()})
+    return {k: out / v.relative_to(stage) for k, v in written.items()}
+
+
+def _write_plan(plan_, out: Path) -> dict[str, Path]:
     out.mkdir(parents=True, exist_ok=True)
+    if isinstance(plan_, NetworkPlan):
+        return _write_network(plan_, out)
+    return _write_line(plan_, out)
+
+
+def _write_line(plan_: Plan, out: Path) -> dict[str, Path]:
+    """A line's deliverables (see :func:`_write_set`)."""
     mapped = bool(np.all(np.isfinite(plan_.profile.lat)))
     return _write_set(out, drawings=[(plan_, "profile")],
                       map_job=(plan_, {"terrain": _terrain_window(plan_)}) if mapped else None,
@@ -130,13 +150,6 @@ def plan_any(scenario: Scenario):
     return plan_scenario(scenario)
 
 
-def write_any(plan_, out_dir: str | Path) -> dict[str, Path]:
-    """Write a line's or a network's outputs (see :func:`write_outputs`)."""
-    if isinstance(plan_, NetworkPlan):
-        return write_network_outputs(plan_, out_dir)
-    return write_outputs(plan_, out_dir)
-
-
 def _drawing(kind: str, plans, out: Path, stem: str, map_kw: dict) -> dict[str, Path]:
     """One deliverable that needs nothing from the others.
 
@@ -166,22 +179,38 @@ def _in_parallel(fn, jobs: list[tuple]) -> list:
         return [fn(*job) for job in jobs]
     from concurrent.futures import ProcessPoolExecutor
 
-    with ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("fork")) as pool:
+    with ProcessPoolExecutor(max_workers=workers, mp_context=mp.get_context("fork"),
+                             initializer=_exit_with, initargs=(os.getpid(),)) as pool:
         return list(pool.map(fn, *zip(*jobs)))
 
 
-def write_network_outputs(plan_, out_dir: str | Path) -> dict[str, Path]:
-    """Write plan.json, the profile drawings and map.html for a branched system.
+def _exit_with(parent: int) -> None:
+    """In a drawing worker: exit as soon as ``parent`` is gone (even after SIGKILL).
 
-    There is one profile drawing per path from the source to each branch end; each file
-    is written atomically.
+    A killed parent closes no pipe the workers would notice (each holds copies of the
+    pool's pipes), so a thread watches whether the worker has been re-parented.
+    """
+    import os
+    import threading
+    import time
+
+    def watch():
+        while os.getppid() == parent:
+            time.sleep(0.2)
+        os._exit(1)
+
+    threading.Thread(target=watch, daemon=True, name="exit-with-parent").start()
+
+
+def _write_network(plan_: NetworkPlan, out: Path) -> dict[str, Path]:
+    """A branched system's deliverables (see :func:`_write_set`).
+
+    There is one profile drawing per path from the source to each branch end.
     """
     import re
 
     from .report.plan_json import write_network_json
 
-    out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
     link_plans = [as_line_plan(plan_, [k]) for k in range(len(plan_.links))]
     drawings: list[dict] = []
     paths = []

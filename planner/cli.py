@@ -195,21 +195,32 @@ def _report_network(plan, written):
     _findings_and_files(plan.findings, written)
 
 
-def _plan_and_write(scenario_path: Path, out: Path):
+def _plan_and_write(scenario_path: Path, out: Path, beside: dict[str, Path] | None = None):
+    """Plan a scenario and write its results as one set; print the summary.
+
+    Each scenario in ``beside`` is planned too and written into that subfolder of the
+    same set.  Returns the plans.
+    """
     from . import api
 
-    def work():
-        sc = api.load_scenario(scenario_path)
-        pl = api.plan_any(sc)
-        return pl, api.write_any(pl, out)
 
-    pl, written = _run(work)
+    beside = beside or {}
+
+    def work():
+        main_plan = api.plan_any(api.load_scenario(scenario_path))
+        others = {name: api.plan_any(api.load_scenario(p)) for name, p in beside.items()}
+        return main_plan, others, api.write_outputs(main_plan, out, beside=others)
+
     from .design.results import NetworkPlan
-    if isinstance(pl, NetworkPlan):
-        _report_network(pl, written)
-    else:
-        _report(pl, written)
-    return pl
+
+    pl, others, written = _run(work)
+    for k, (name, p) in enumerate([("", pl), *others.items()]):
+        if k:
+            click.echo("")
+        files = {key.removeprefix(f"{name}/"): v for key, v in written.items()
+                 if (key.startswith(f"{name}/") if name else "/" not in key)}
+        (_report_network if isinstance(p, NetworkPlan) else _report)(p, files)
+    return [pl, *others.values()]
 
 
 @main.command()
@@ -230,7 +241,7 @@ def plan(scenario, out, overwrite):
     """
     if (out / "plan.json").exists() and not overwrite:
         raise _Reported(f"{out} already holds a plan; pass --overwrite to replace it")
-    pl = _plan_and_write(scenario, out)
+    pl, = _plan_and_write(scenario, out)
     if pl.errors:
         sys.exit(2)
 
@@ -351,10 +362,10 @@ def demo(out):
         import runpy
 
         click.echo(f"generating the demo terrain in {dem.parent}")
-        runpy.run_path(str(DEMO_SCENARIO.parent / "generate.py"), run_name="__main__")
-    _plan_and_write(DEMO_SCENARIO, out)
-    click.echo("")
-    _plan_and_write(DEMO_SCENARIO.parent / "scenario_network.toml", out / "branched")
+        generator = runpy.run_path(str(DEMO_SCENARIO.parent / "generate.py"))
+        generator["write_demo"](DEMO_SCENARIO.parent)
+    _plan_and_write(DEMO_SCENARIO, out,
+                    beside={"branched": DEMO_SCENARIO.parent / "scenario_network.toml"})
 
 
 if __name__ == "__main__":

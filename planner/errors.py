@@ -20,6 +20,10 @@ class InputFileError(PlannerError, OSError):
     """A file given by the user is missing, unreadable or malformed."""
 
 
+class OutputError(PlannerError, OSError):
+    """The output folder cannot take a new result set (busy, not gravplan's, unwritable)."""
+
+
 class TerrainError(PlannerError, ValueError):
     """The route and the DEM do not fit: off the raster, long voids, bad CRS."""
 
@@ -55,3 +59,7 @@ class TerrainWarning(UserWarning):
 
 class UnitWarning(UserWarning):
     """A value that is valid but looks like a unit mistake (metres for millimetres...)."""
+
+
+class OutputWarning(UserWarning):
+    """A deliverable could not be written on this machine; the message says why."""

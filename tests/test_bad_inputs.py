@@ -94,8 +94,8 @@ def test_bad_input(case, tmp_path, demo_folder, dems):
             assert word.lower() in text.lower(), f"{word!r} not in: {text}"
         return
     args = case.get("args", ["plan", "{scenario}", "--out", "{out}", "--overwrite"])
-    args = [a.format(scenario=scenario, out=out, route=route, dem=dem, files=HERE / "files")
-            for a in args]
+    args = [a.format(scenario=scenario, out=out, route=route, dem=dem, files=HERE / "files",
+                     work=scenario.parent) for a in args]
     res = CliRunner().invoke(main, args)
     message = res.output
     assert res.exit_code == case.get("exit", 1), f"exit {res.exit_code}: {message}"
@@ -105,3 +105,4 @@ def test_bad_input(case, tmp_path, demo_folder, dems):
         assert word.lower() in message.lower(), f"{word!r} not in: {message}"
     assert sorted(p.name for p in out.iterdir()) == ["plan.json"]
     assert (out / "plan.json").read_text() == earlier
+    assert not list(tmp_path.glob(".*")), "a staging folder or temporary file is left"

@@ -12,10 +12,12 @@ import html
 import shutil
 import subprocess
 import tempfile
+import warnings
 from pathlib import Path
 
 from .files import atomic_path, write_text
 from ..cautions import CAUTIONS
+from ..errors import OutputWarning
 
 LIMITATIONS = (
     "Steady flow at the design flow only: no extended-period simulation, no transient analysis "
@@ -182,8 +184,13 @@ def write_report(data: dict, drawings: list[Path], bill_rows: list[list], folder
     out = {"report.html": write_text(folder / "report.html", report_html(data, drawings, bill_rows))}
     exe = chromium()
     if exe is None:
+        warnings.warn("report.pdf not written: it is printed by Chromium, which this machine "
+                      "does not have (install the chromium package); report.html holds the "
+                      "same report", OutputWarning, stacklevel=2)
         return out
-    with tempfile.TemporaryDirectory() as profile, \
+    # the browser's profile lives in the output folder, so that a killed run leaves it
+    # where the next run clears it (see planner.report.files.output_set)
+    with tempfile.TemporaryDirectory(prefix=".browser-", dir=folder) as profile, \
             atomic_path(folder / "report.pdf", suffix=".pdf") as tmp:
         subprocess.run([exe, "--headless", "--no-sandbox", "--disable-gpu",
                         "--disable-background-networking", "--disable-component-update",
