@@ -22,7 +22,10 @@ class _Reported(click.ClickException):
 
 
 def _run(fn):
-    """Call ``fn``, turning PlannerErrors into a message and exit 1, warnings into lines."""
+    """Call ``fn``, turning PlannerErrors and OS errors into a message and exit 1.
+
+    Warnings become ``warning:`` lines, each once.
+    """
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
@@ -30,6 +33,10 @@ def _run(fn):
         except PlannerError as exc:
             _print_warnings(caught)
             raise _Reported(str(exc)) from None
+        except OSError as exc:      # the system refused a file: its name and reason suffice
+            _print_warnings(caught)
+            where = f"{exc.filename}: " if exc.filename else ""
+            raise _Reported(f"{where}{exc.strerror or exc}") from None
     _print_warnings(caught)
     return result
 
@@ -88,7 +95,7 @@ def profile(route, dems, spacing, cover, max_void, out):
     if out is None:
         click.echo(profile_csv_text(prof), nl=False)
     else:
-        write_profile_csv(prof, out)
+        _run(lambda: write_profile_csv(prof, out))
         click.echo(f"wrote {out}")
     click.echo(f"{prof.n} points over {prof.length_m:,.1f} m (pipe length "
                f"{prof.slope_length_m[-1]:,.1f} m); ground {prof.ground_m.min():.1f} to "

@@ -7,10 +7,12 @@ was (an earlier result survives).  Warning cases must load and warn.
 
 from __future__ import annotations
 
+import os
 import shutil
 import tomllib
 import warnings
 from pathlib import Path
+from xml.sax.saxutils import escape
 
 import numpy as np
 import pytest
@@ -49,6 +51,23 @@ def dems(demo_folder, tmp_path_factory):
             if name == "feet":
                 ds.set_band_unit(1, "ft")
         out[name] = path
+    fifo = folder / "dem_fifo.tif"
+    os.mkfifo(fifo)                     # a named pipe: a reader would wait for ever
+    out["fifo"] = fifo
+    vrt = folder / "dem_tiles.vrt"      # a GDAL VRT whose second tile is not there
+    shutil.copy(demo_folder / "dem.tif", folder / "tile_a.tif")
+    t, w, h = prof["transform"], prof["width"], prof["height"]
+    sources = "".join(
+        f'<SimpleSource><SourceFilename relativeToVRT="1">{name}</SourceFilename>'
+        f'<SourceBand>1</SourceBand><SrcRect xOff="0" yOff="0" xSize="{w}" ySize="{h}"/>'
+        f'<DstRect xOff="{x0}" yOff="0" xSize="{w}" ySize="{h}"/></SimpleSource>'
+        for name, x0 in (("tile_a.tif", 0), ("tile_b.tif", w)))
+    vrt.write_text(f'<VRTDataset rasterXSize="{2 * w}" rasterYSize="{h}">'
+                   f"<SRS>{escape(prof['crs'].to_wkt())}</SRS>"
+                   f"<GeoTransform>{t.c}, {t.a}, {t.b}, {t.f}, {t.d}, {t.e}</GeoTransform>"
+                   f'<VRTRasterBand dataType="Float32" band="1">{sources}</VRTRasterBand>'
+                   "</VRTDataset>")
+    out["vrt_missing_tile"] = vrt
     return out
 
 
@@ -68,6 +87,7 @@ def _prepare(case, tmp_path, demo_folder, dems):
         shutil.copy(HERE / "files" / case["route"], route)
         text = text.replace(f'file = "{route_name}"', f'file = "{case["route"]}"')
     for old, new in case.get("edit", []):
+        new = new.replace("{files}", (HERE / "files").as_posix())
         assert old in text, f"{case['id']}: {old!r} is not in the base scenario"
         text = text.replace(old, new)
     if "append" in case:

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import InputError, InputFileError
+from ..inputs import read_text
 from ..units import BAR, MM
 from .materials import JOINTINGS, columns_from_material
 from .standards import DERATING_FAMILIES
@@ -136,15 +137,15 @@ def load_catalogue(name_or_path: str | Path) -> list[PipeOption]:
     """
     key = str(name_or_path).lower()
     path = DATA / BUILTIN[key] if key in BUILTIN else Path(name_or_path)
-    if not path.is_file():
+    if not path.exists():
         import difflib
         close = difflib.get_close_matches(key, BUILTIN, n=1)
         raise InputFileError(f"{name_or_path}: pipe catalogue not found"
                              + (f"; did you mean {close[0]!r}?" if close else "")
                              + f" (built-in catalogues: {', '.join(BUILTIN)}; anything else is "
                              "read as a CSV path)")
-    with path.open(encoding="utf-8", newline="") as fh:
-        lines = [line for line in fh if not line.lstrip().startswith("#")]
+    lines = [line for line in read_text(path, "pipe catalogue").splitlines(keepends=True)
+             if not line.lstrip().startswith("#")]
     reader = csv.DictReader(lines)
     missing = [c for c in REQUIRED if c not in (reader.fieldnames or [])]
     if missing:

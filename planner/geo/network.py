@@ -25,6 +25,7 @@ from shapely.geometry import LineString
 from shapely.ops import substring
 
 from ..errors import InputError, InputFileError
+from ..inputs import regular_file
 from .geodesy import utm_crs_for
 from .route import WGS84, VECTOR_SUFFIXES, _check_lonlat
 
@@ -80,8 +81,7 @@ def read_lines(path: str | Path) -> list[tuple[LineString, str]]:
     import pyogrio
 
     p = Path(path)
-    if not p.is_file():
-        raise InputFileError(f"{p}: network file not found")
+    regular_file(p, "network file")
     if p.suffix.lower() not in VECTOR_SUFFIXES:
         raise InputFileError(f"{p}: a network must be GeoJSON, KML or GPX")
     out = []

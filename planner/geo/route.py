@@ -16,13 +16,20 @@ import numpy as np
 import shapely
 from numpy.typing import NDArray
 from pyproj import CRS, Transformer
+from pyproj.exceptions import CRSError
 from shapely.geometry import LineString, MultiLineString, Point
 
 from ..errors import InputError, InputFileError
+from ..inputs import regular_file
 
 WGS84 = CRS.from_epsg(4326)
 VECTOR_SUFFIXES = {".geojson": "GeoJSON", ".json": "GeoJSON", ".kml": "KML", ".gpx": "GPX"}
 SURVEY_SUFFIXES = {".csv": "CSV survey"}
+
+#: Ground levels a survey may give [m]: below the lowest dry land (the Dead Sea shore,
+#: about -430 m) and above the highest summit (8,849 m); anything outside is a unit or
+#: typing mistake.
+ELEVATION_RANGE_M = (-500.0, 9000.0)
 
 #: Accepted CSV column names (lower case) for each survey quantity.
 SURVEY_COLUMNS = {
@@ -126,8 +133,7 @@ def read_route(path: str | Path, *, crs: str | None = None) -> Route | Survey:
     """
     p = Path(path)
     suffix = p.suffix.lower()
-    if not p.is_file():
-        raise InputFileError(f"{p}: route file not found")
+    regular_file(p, "route file")
     if suffix in SURVEY_SUFFIXES:
         return read_survey(p, crs=crs)
     if suffix not in VECTOR_SUFFIXES:
@@ -304,6 +310,18 @@ def read_survey(path: str | Path, *, crs: str | None = None) -> Survey:
         if crs is None:
             raise InputError(f"{p}: the survey has x and y columns; say their CRS "
                              "(scenario key route.crs, or --crs on the command line)")
-        survey_crs = CRS.from_user_input(crs)
+        try:
+            survey_crs = CRS.from_user_input(crs)
+        except CRSError:
+            raise InputError(f"{p}: {crs!r} is not a coordinate reference system pyproj "
+                             "knows; give an EPSG code such as \"EPSG:32737\"") from None
+    lo, hi = ELEVATION_RANGE_M
+    if np.any((elevation < lo) | (elevation > hi)):
+        i = int(np.flatnonzero((elevation < lo) | (elevation > hi))[0])
+        raise InputFileError(f"{p}: row {i + 2}, elevation {elevation[i]:g} m is outside "
+                             f"{lo:g} to {hi:g} m (is it in millimetres or feet?)")
+    if chainage[0] < 0:
+        raise InputFileError(f"{p}: row 2, chainage {chainage[0]:g} m is negative; chainage "
+                             "counts from the start of the line")
     return Survey(chainage_m=chainage, elevation_m=elevation, x=x, y=y, crs=survey_crs,
                   source=str(p))

@@ -22,6 +22,7 @@ from numpy.typing import NDArray
 from pyproj import CRS
 
 from ..errors import InputFileError, TerrainError, TerrainWarning
+from ..inputs import regular_file
 
 #: Window edge used when a file is striped rather than tiled [pixels].
 VIRTUAL_BLOCK = 256
@@ -54,12 +55,19 @@ class Dem:
         self._datasets = []
         try:
             for p in self.paths:
-                if not p.exists():
-                    raise InputFileError(f"{p}: DEM file not found")
+                if not str(p).startswith("/vsi"):        # GDAL's virtual file systems
+                    regular_file(p, "DEM file")
                 try:
                     self._datasets.append(rasterio.open(p))
                 except rasterio.errors.RasterioIOError as exc:
                     raise InputFileError(f"{p}: cannot open as a raster ({exc})") from None
+                missing = [f for f in self._datasets[-1].files[1:]
+                           if not f.startswith("/vsi") and not Path(f).is_file()]
+                if missing:
+                    raise InputFileError(
+                        f"{p}: {len(missing)} file(s) this DEM refers to are missing "
+                        f"({', '.join(missing[:3])}{', ...' if len(missing) > 3 else ''}); "
+                        "restore them or rebuild the VRT")
             first = self._datasets[0]
             for p, ds in zip(self.paths, self._datasets):
                 if ds.crs is None:
@@ -222,32 +230,38 @@ def _read_blocks(ds, wins, stack, shape, dtype) -> None:
     """
     import os
 
+    import rasterio
+
     def read(handle, ks):
         for k in ks:
             win = wins[k]
-            if win.width == shape[1] and win.height == shape[0]:
-                handle.read(1, window=win, out=stack[k])
-            else:                               # a partial block at the right or bottom edge
-                stack[k] = np.nan
-                stack[k, : int(win.height), : int(win.width)] = handle.read(
-                    1, window=win, out_dtype=dtype)
+            try:
+                if win.width == shape[1] and win.height == shape[0]:
+                    handle.read(1, window=win, out=stack[k])
+                else:                           # a partial block at the right or bottom edge
+                    stack[k] = np.nan
+                    stack[k, : int(win.height), : int(win.width)] = handle.read(
+                        1, window=win, out_dtype=dtype)
+            except rasterio.errors.RasterioIOError as exc:
+                raise InputFileError(
+                    f"{ds.name}: cannot read the DEM at pixel row {int(win.row_off):,}, column "
+                    f"{int(win.col_off):,} ({exc}); the file or one of its tiles is damaged "
+                    "or unreadable") from None
 
     ks = list(range(len(wins)))
     if len(ks) < PARALLEL_BLOCKS or (os.cpu_count() or 1) < 2 or not Path(ds.name).is_file():
         read(ds, ks)
         return
-    import threading
-
-    import rasterio
+    from concurrent.futures import ThreadPoolExecutor
 
     def other():
         with rasterio.open(ds.name) as handle:
             read(handle, ks[1::2])
 
-    t = threading.Thread(target=other)
-    t.start()
-    read(ds, ks[0::2])
-    t.join()
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        second = pool.submit(other)
+        read(ds, ks[0::2])
+        second.result()                         # the second thread's error, raised here
 
 
 def _sample_blocks(ds, x: NDArray, y: NDArray, *, clamp: bool = False) -> _Sampled:

@@ -18,6 +18,7 @@ from ..catalogue.pipes import BUILTIN
 from ..design import demand as dm
 from ..design.uncertainty import PRODUCTS
 from ..errors import InputError, InputFileError, UnitWarning
+from ..inputs import read_text
 from .keys import ARRAYS, DEMAND_KEYS, DEMAND_RANGES, NUM, REQUIRED_SECTIONS, SECTIONS, Key, fields
 from .model import (Criteria, Design, Drawing, Fitting, Outlet, Pipe, Project, RouteSpec,
                     Scenario, Source, SurveyPoint, Tank, Terrain, UncertaintySpec)
@@ -114,14 +115,7 @@ def load_scenario(path: str | Path) -> Scenario:
         Listing every problem found, each with its key.
     """
     p = Path(path)
-    if not p.is_file():
-        raise InputFileError(f"{p}: scenario file not found")
-    try:
-        text = p.read_text(encoding="utf-8")
-    except UnicodeDecodeError as exc:
-        raise InputFileError(f"{p}: not a UTF-8 text file ({exc})") from None
-    if text.startswith("\ufeff"):                  # a byte-order mark some editors write
-        text = text[1:]
+    text = read_text(p, "scenario file")
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -208,6 +202,14 @@ def _route(r: dict[str, Any], base: Path, terrain: Terrain | None,
     if "file" in r and not route.file.suffix.lower() == ".csv" and terrain is None:
         problems.add("terrain.dem", f"needed for the route {r['file']!r}: only a CSV survey "
                      "carries its own elevations")
+    if route.crs:
+        from pyproj import CRS
+        from pyproj.exceptions import CRSError
+        try:
+            CRS.from_user_input(route.crs)
+        except CRSError:
+            problems.add("route.crs", f"{route.crs!r} is not a coordinate reference system "
+                         "pyproj knows; give an EPSG code such as \"EPSG:32737\"")
     return route
 
 
