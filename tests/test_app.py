@@ -143,7 +143,7 @@ def server(demo_folder, tmp_path_factory):
 def _post(url, body: bytes, *, ctype="application/json", headers=None):
     req = urllib.request.Request(url, data=body, headers={"Content-Type": ctype, **(headers or {})})
     try:
-        with urllib.request.urlopen(req, timeout=30) as r:
+        with urllib.request.urlopen(req, timeout=120) as r:
             return r.status, json.loads(r.read())
     except urllib.error.HTTPError as e:
         return e.code, json.loads(e.read())
@@ -181,6 +181,10 @@ def test_plan_over_http(server):
     (b'{"type": "FeatureCollection", "features": []}', "application/json", 200, "no line yet"),
     (b'{"type": "Feature", "geometry": {"type": "LineString", "coordinates": [[1e400, 0], [1, 1]]}}',
      "application/json", 200, "finite"),
+    (b"[" * 100_000 + b"]" * 100_000, "application/json", 400, "nested too deeply"),
+    (b"null", "application/json", 400, "must be a JSON object, not NoneType"),
+    (b'{"type": ' + b"7" * 5000 + b"}", "application/json", 400, "not valid JSON"),
+    (b"[1, 2]", "application/json", 400, "must be a JSON object, not list"),
 ])
 def test_malformed_requests_get_messages(server, body, ctype, status, words):
     app, _ = server
@@ -233,3 +237,21 @@ def test_save_writes_only_the_route_file_and_keeps_a_backup(server):
     code, res = _post(app.url + "api/save", b'{"type": "FeatureCollection", "features": []}')
     assert res["ok"] is False
     assert json.loads((folder / "route.geojson").read_text()) == saved
+
+
+def test_fifty_simultaneous_plan_requests_are_all_answered(server):
+    """A burst larger than the standard library's listen backlog of 5: no reset, no error."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    app, _ = server
+    body = json.dumps(app.drawing).encode()
+
+    def plan(_):
+        try:
+            return _post(app.url + "api/plan", body)[0]
+        except OSError as exc:            # a reset or refused connection
+            return repr(exc)
+
+    with ThreadPoolExecutor(max_workers=50) as pool:
+        answers = list(pool.map(plan, range(50)))
+    assert answers == [200] * 50, [a for a in answers if a != 200][:3]

@@ -10,7 +10,10 @@ machine.  What keeps it safe:
 - the page never sends a file path: the route file that Save writes is fixed when the
   server starts (the scenario's own), and the previous version is kept as ``.bak``;
 - a malformed drawing is a message shown in the page (HTTP 200 with ``ok: false``, or
-  400 for a body that is not JSON), never a server error.
+  400 for a body that is not a JSON object: malformed, nested too deeply, an integer
+  too long to convert, or ``null``), never a server error or a dropped connection;
+- a backlog of 128 connections and a thread per request, so that a burst of requests
+  waits for the session's lock instead of being refused.
 
 Endpoints: ``GET /`` the page, ``GET /api/state`` what is being edited,
 ``POST /api/plan`` a drawing -> the plan digest (see :mod:`planner.app.session`),
@@ -128,11 +131,21 @@ class _Handler(BaseHTTPRequestHandler):
             return None
         raw = self.rfile.read(size)
         try:
-            return json.loads(raw.decode("utf-8"))
-        except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+            body = json.loads(raw.decode("utf-8"))
+        except RecursionError:
+            self._json(HTTPStatus.BAD_REQUEST,
+                       {"ok": False, "error": "the drawing is nested too deeply to be a drawing"})
+            return None
+        except ValueError as exc:       # not UTF-8, not JSON, or an integer of 4,300+ digits
             self._json(HTTPStatus.BAD_REQUEST,
                        {"ok": False, "error": f"the drawing is not valid JSON ({exc})"})
             return None
+        if not isinstance(body, dict):
+            self._json(HTTPStatus.BAD_REQUEST,
+                       {"ok": False, "error": "the drawing must be a JSON object, not "
+                                              f"{type(body).__name__}"})
+            return None
+        return body
 
     def do_POST(self):
         path = self.path.split("?", 1)[0]
@@ -160,6 +173,17 @@ class _Handler(BaseHTTPRequestHandler):
                                "please report it with the drawing"})
 
 
+class _Server(ThreadingHTTPServer):
+    """One thread per request, and a listen backlog for a burst of them.
+
+    The standard library's backlog of 5 resets connections when a page (or a test)
+    sends tens of plan requests at once; re-plans queue on the session's lock instead.
+    """
+
+    daemon_threads = True
+    request_queue_size = 128
+
+
 class App:
     """The server's state: the session, the page, the file Save writes."""
 
@@ -177,8 +201,7 @@ class App:
                                terrain=terrain_layers(self.session.dem), drawing=self.drawing,
                                markers=markers)
         handler = type("Handler", (_Handler,), {"app": self})
-        self.httpd = ThreadingHTTPServer((LOOPBACK, port), handler)
-        self.httpd.daemon_threads = True
+        self.httpd = _Server((LOOPBACK, port), handler)
 
     @property
     def url(self) -> str:
