@@ -20,7 +20,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 from numpy.typing import NDArray
 
-from ..errors import DesignError
+from ..errors import DesignError, InputError
 from ..hydraulics import surge as sg
 from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, segment_flows
@@ -67,6 +67,12 @@ class _System:
         return f"{self.lay.names[k]}: " if len(self.lay.profiles) > 1 else ""
 
 
+#: Most profile points a plan may hold, all links together [-]: 100,000 took 1.3 GB and
+#: 22 s here (benchmarks/bench_large_route.py), and memory grows in proportion, so
+#: this keeps a plan near 1.6 GB.  A choice of ours.
+MAX_DESIGN_POINTS = 120_000
+
+
 def design_layout(sc: Scenario, lay: Layout, *, compare_single_size: bool = True) -> NetworkPlan:
     """Compute (and in design mode, design) a laid-out system at design flow.
 
@@ -85,6 +91,11 @@ def design_layout(sc: Scenario, lay: Layout, *, compare_single_size: bool = True
         When gravity cannot deliver, or (design mode) when no design meets the limits;
         the message says where and why, in metres and chainages.
     """
+    points = sum(p.n for p in lay.profiles)
+    if points > MAX_DESIGN_POINTS:
+        raise InputError(f"{sc.path.name}: the system's profiles hold {points:,} points, more than "
+                         f"the {MAX_DESIGN_POINTS:,} a plan may have (memory); raise "
+                         "route.spacing_m, simplify the route, or split the system")
     s = _prepare(sc, lay)
     _tanks_and_candidates(s)
     required, line_req = _requirements(s)

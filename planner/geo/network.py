@@ -27,7 +27,7 @@ from shapely.ops import substring
 from ..errors import InputError, InputFileError
 from ..inputs import regular_file
 from .geodesy import utm_crs_for
-from .route import WGS84, VECTOR_SUFFIXES, _check_lonlat
+from .route import WGS84, VECTOR_SUFFIXES, _check_lonlat, thin_vertices
 
 
 @dataclass(frozen=True)
@@ -104,6 +104,7 @@ def read_lines(path: str | Path) -> list[tuple[LineString, str]]:
                     z = heights.get((int(fid), seg))
                     if z is not None and z.size == xy.shape[0]:
                         xy = np.column_stack([xy, z])
+                    xy = xy[thin_vertices(xy[:, :2], f"{p.name} ({name or f'line {fid}'})")]
                     out.append((LineString(xy), str(name) if name is not None else ""))
     except InputFileError:
         raise

@@ -9,6 +9,7 @@ This module only reads; sampling a DEM along the route is in ``terrain`` and
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -19,7 +20,7 @@ from pyproj import CRS, Transformer
 from pyproj.exceptions import CRSError
 from shapely.geometry import LineString, MultiLineString, Point
 
-from ..errors import InputError, InputFileError
+from ..errors import InputError, InputFileError, TerrainWarning
 from ..inputs import regular_file
 
 WGS84 = CRS.from_epsg(4326)
@@ -85,11 +86,14 @@ class Survey:
     source: str
 
 
-def route_from_line(line: LineString, source: str = "<memory>") -> Route:
+def route_from_line(line: LineString, source: str = "<memory>", *,
+                    gps_elevation_m: NDArray | None = None) -> Route:
     """Check a lon/lat LineString and wrap it as a :class:`Route`.
 
-    Removes repeated consecutive vertices and rejects lines with fewer than two
-    distinct points or coordinates outside longitude -180..180, latitude -90..90.
+    Removes repeated consecutive vertices, thins a line of very many
+    (:func:`thin_vertices`), and rejects lines with fewer than two distinct points or
+    coordinates outside longitude -180..180, latitude -90..90.  ``gps_elevation_m``
+    (one per vertex [m]) follows the vertices kept.
     """
     if not isinstance(line, LineString):
         raise InputError(f"{source}: a route must be a LineString, got {line.geom_type}")
@@ -101,7 +105,73 @@ def route_from_line(line: LineString, source: str = "<memory>") -> Route:
     if len(xy) < 2:
         raise InputError(f"{source}: the route has fewer than two distinct points; "
                          "draw or record at least a start and an end")
-    return Route(line=LineString(xy), source=source)
+    index = thin_vertices(xy, source)
+    heights = None if gps_elevation_m is None else np.asarray(gps_elevation_m, float)[keep][index]
+    return Route(line=LineString(xy[index]), source=source, gps_elevation_m=heights)
+
+
+#: Most vertices a route line may have [-]: a vertex every metre over 100 km.  Above
+#: it the line is thinned (:func:`thin_vertices`); what is still above is refused, so
+#: that a plan's memory and time stay bounded (see benchmarks/README.md).
+MAX_ROUTE_VERTICES = 100_000
+
+#: Largest distance a thinned line may move from the route as given [m]: far below a
+#: DEM cell and a GPS fix's error, so the profile does not change in any way that
+#: matters.  A choice of ours.
+THIN_TOLERANCE_M = 0.1
+
+
+#: Vertices simplified at a time [-]: GEOS's Douglas-Peucker recurses once per kept
+#: vertex and overflows an 8 MB stack near 100,000 of them (measured here with shapely
+#: 2.2 / GEOS 3.14: a segmentation fault), so long lines go in pieces that share ends.
+THIN_PIECE = 10_000
+
+
+def thin_vertices(xy: NDArray, source: str) -> NDArray[np.int64]:
+    """Indices of the lon/lat vertices ``xy`` a route keeps (all, up to the limit).
+
+    A line of more than :data:`MAX_ROUTE_VERTICES` is simplified by Douglas-Peucker
+    (shapely's ``simplify``; Douglas & Peucker 1973) within
+    :data:`THIN_TOLERANCE_M`, in pieces of :data:`THIN_PIECE` vertices, with a warning;
+    if it still has too many vertices it is refused at once, naming the limit.  The
+    tolerance is turned into degrees with the length of a degree of latitude
+    (110.6 km), which is at most that of longitude, so no vertex moves further than the
+    tolerance in metres.
+    """
+    n = len(xy)
+    if n <= MAX_ROUTE_VERTICES:
+        return np.arange(n)
+    tol = THIN_TOLERANCE_M / 110_574.0
+    parts = [np.array([0])]
+    for a in range(0, n - 1, THIN_PIECE):
+        b = min(a + THIN_PIECE, n - 1)
+        piece = xy[a:b + 1]
+        kept = np.asarray(shapely.simplify(LineString(piece), tol,
+                                           preserve_topology=False).coords)[:, :2]
+        parts.append(a + _positions(piece, kept)[1:])
+    index = np.concatenate(parts)
+    if len(index) > MAX_ROUTE_VERTICES:
+        raise InputError(
+            f"{source}: the route has {n:,} vertices, {len(index):,} after dropping those "
+            f"within {THIN_TOLERANCE_M:g} m of the line; at most {MAX_ROUTE_VERTICES:,} are "
+            "accepted; simplify it in a GIS (a vertex every few metres is plenty) or split it")
+    warnings.warn(f"{source}: the route's {n:,} vertices thinned to {len(index):,} (those within "
+                  f"{THIN_TOLERANCE_M:g} m of the line dropped; more than {MAX_ROUTE_VERTICES:,} "
+                  "would make the plan slow)", TerrainWarning, stacklevel=3)
+    return index
+
+
+def _positions(xy: NDArray, kept: NDArray) -> NDArray[np.int64]:
+    """Where the rows of ``kept``, a subsequence of ``xy``, stand in ``xy``."""
+    same = np.flatnonzero(np.isin(xy[:, 0], kept[:, 0]) & np.isin(xy[:, 1], kept[:, 1]))
+    index = np.empty(len(kept), dtype=np.int64)
+    j = 0
+    for k, (lon, lat) in enumerate(kept):      # candidates only: a short walk
+        while xy[same[j], 0] != lon or xy[same[j], 1] != lat:
+            j += 1
+        index[k] = same[j]
+        j += 1
+    return index
 
 
 def _check_lonlat(xy: NDArray, source: str) -> None:
@@ -178,10 +248,10 @@ def _read_vector(p: Path, kind: str) -> Route:
         xy = np.asarray(merged.coords)[:, :2]
         lon, lat = tr.transform(xy[:, 0], xy[:, 1])
         merged = LineString(np.column_stack([lon, lat]))
-    route = route_from_line(LineString(np.asarray(merged.coords)[:, :2]), source=str(p))
-    if elevations is not None and len(elevations) == len(route.line.coords):
-        return Route(line=route.line, source=route.source, gps_elevation_m=elevations)
-    return route
+    xy = np.asarray(merged.coords)[:, :2]
+    if elevations is not None and len(elevations) != len(xy):
+        elevations = None
+    return route_from_line(LineString(xy), source=str(p), gps_elevation_m=elevations)
 
 
 def _read_layers(p: Path, kind: str, layers: list[str]) -> tuple[list, CRS | None, str | None]:

@@ -133,3 +133,41 @@ def test_self_crossing_route_stays_one_line(tmp_path):
     r = read_route(write(tmp_path, "r.geojson", json.dumps({"type": "LineString",
                                                              "coordinates": coords})))
     np.testing.assert_allclose(np.asarray(r.line.coords), coords)
+
+
+def test_a_route_of_very_many_vertices_is_thinned_or_refused_at_once():
+    """Above MAX_ROUTE_VERTICES: thinned within THIN_TOLERANCE_M (Douglas-Peucker via
+    shapely) with a warning, GPS heights following their vertices; refused when thinning
+    cannot bring it under the limit (benchmarks/bench_large_route.py measures the bound)."""
+    import time
+    import warnings
+
+    from shapely.geometry import LineString
+
+    from planner.errors import InputError
+    from planner.geo.route import (MAX_ROUTE_VERTICES, THIN_PIECE, THIN_TOLERANCE_M,
+                                    route_from_line)
+
+    n = MAX_ROUTE_VERTICES + 50_000
+    lon = np.linspace(36.0, 36.05, n)                  # about 5.5 km east along 1 deg S
+    lat = np.full(n, -1.0)
+    lat[n // 2] += 1e-4                                # one real bend of 11 m
+    heights = np.arange(n, dtype=float)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        r = route_from_line(LineString(np.column_stack([lon, lat])), "dense.geojson",
+                            gps_elevation_m=heights)
+    xy = np.asarray(r.line.coords)
+    m = n // 2               # the ends, the spike and its neighbours, and the pieces' ends
+    assert len(xy) <= 5 + n // THIN_PIECE + 1 and lat[m] in xy[:, 1]
+    index = r.gps_elevation_m.astype(int)                  # heights follow their vertices
+    assert {0, m - 1, m, m + 1, n - 1} <= set(index)
+    assert np.array_equal(xy, np.column_stack([lon, lat])[index])
+    assert any(f"thinned to {len(xy)}" in str(w.message) and "150,000" in str(w.message)
+               for w in caught)
+
+    wiggle = lat + np.where(np.arange(n) % 2, 1, -1) * 3 * THIN_TOLERANCE_M / 110_574.0
+    t0 = time.perf_counter()
+    with pytest.raises(InputError, match=r"150,000 vertices.*at most 100,000"):
+        route_from_line(LineString(np.column_stack([lon, wiggle])), "wiggly.geojson")
+    assert time.perf_counter() - t0 < 10.0                 # at once, not after sizing
