@@ -2,9 +2,10 @@
 
 Layout (:mod:`planner.design.layout`) -> flows by accumulation towards the source ->
 break-pressure tanks on every link (the static level runs on through junctions) and the
-candidates each segment admits (static head, surge, velocity) -> a pre-check with the
-largest pipes -> one sizing programme for the whole system (:mod:`planner.design.problem`,
-:mod:`planner.design.sizing`), rechecked point by point on the built pipes -> valves,
+candidates each segment admits (static head, surge, velocity: :mod:`planner.design.admission`)
+-> a pre-check with the largest pipes -> one sizing programme for the whole system
+(:mod:`planner.design.problem`, :mod:`planner.design.sizing`), rechecked point by point
+on the built pipes, and sized again where the built reaches' surge asks for it -> valves,
 checks, the DEM-error estimate -> :class:`~planner.design.results.NetworkPlan`.
 
 Two modes: **check** (the scenario gives one pipe, ``[pipe]``: the system is computed
@@ -15,56 +16,29 @@ file; writing results is the report package's job.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ..errors import DesignError, InputError
-from ..hydraulics import surge as sg
 from ..hydraulics import water
 from ..hydraulics.line import FreeSurface, segment_flows
 from ..hydraulics.network import accumulate_flows, surge_path_lengths
 from ..scenario import Scenario
+from .admission import SURGE_ROUNDS, System, admissible, surge_paths
 from .checks import (Finding, check_line, check_outlet, check_surge, check_tank,
                      check_uncertainty, check_yield, gravity_reachable)
 from .explain import no_design, no_pipe_fits, short_with_largest
 from .features import place_features
 from .layout import Layout
 from .problem import (RECHECK_ROUNDS, build_line, candidate_data, cheapest_per_size, pipe_options,
-                      solve_design, split_points, static_limit, stretches, surge_pool, tighten,
+                      solve_design, split_points, static_limit, stretches, tighten,
                       tree_exact, tree_problem, wave_speeds)
 from .results import LinkPlan, NetworkPlan, OutletResult, TankResult, as_line_plan, finding_order
 from .sizing import best_single_size
 from .tanks import TankSite, place_tanks
 from .uncertainty import line_uncertainty, model_for
-
-
-@dataclass
-class _System:
-    """What the steps share: the layout and everything derived from it before sizing."""
-
-    sc: Scenario
-    lay: Layout
-    draws: list                     # per link: (chainage [m], flow [m3/s]) drawn off it
-    flows: list                     # per link: flow in each segment [m3/s]
-    total_in: NDArray               # per link: flow entering it [m3/s]
-    options: list
-    rating_head: NDArray            # derated rating of each option as head [m]
-    wave: NDArray                   # wave speed of each option [m/s]
-    cand: list                      # per link: (velocity, velocity head, friction slope)
-    nu: float
-    rho: float
-    sites: list = field(default_factory=list)       # per link: TankSite list
-    surfaces: list = field(default_factory=list)    # per link: FreeSurface list (first:
-    #                                                 the source or the junction)
-    allowed: list = field(default_factory=list)     # per link: (segments, options) admissible
-    seg_static: list = field(default_factory=list)  # per link: static head of each segment [m]
-    surge_len: list = field(default_factory=list)   # per link: the wave's path of each reach [m]
-
-    def on(self, k: int) -> str:
-        """The prefix naming link ``k`` in a message (none on a single line)."""
-        return f"{self.lay.names[k]}: " if len(self.lay.profiles) > 1 else ""
 
 
 #: Most profile points a plan may hold, all links together [-]: 100,000 took 1.3 GB and
@@ -105,11 +79,15 @@ def design_layout(sc: Scenario, lay: Layout, *, compare_single_size: bool = True
         return _results(s, built, energies, remaps, req_r, None, None, True)
     _precheck(s, required, line_req)
     sizing, built, energies, remaps, req_r, converged, problem = _size(s, required, line_req)
+    for _ in range(SURGE_ROUNDS):
+        if not surge_paths(s, built, energies, remaps):
+            break
+        sizing, built, energies, remaps, req_r, converged, problem = _size(s, required, line_req)
     single = best_single_size(problem)[0] if compare_single_size else None
     return _results(s, built, energies, remaps, req_r, sizing, single, converged)
 
 
-def _prepare(sc: Scenario, lay: Layout) -> _System:
+def _prepare(sc: Scenario, lay: Layout) -> System:
     """Gravity at all, the flow in every segment, water properties and the candidates."""
     cr = sc.criteria
     profiles, root = lay.profiles, lay.root
@@ -127,7 +105,7 @@ def _prepare(sc: Scenario, lay: Layout) -> _System:
     nu = water.kinematic_viscosity(cr.temperature_c)
     options, rating_head = pipe_options(sc, rho)
     cand = [candidate_data(options, q, rho, nu, cr.friction) for q in flows]
-    return _System(sc=sc, lay=lay, draws=draws, flows=flows, total_in=total_in, options=options,
+    return System(sc=sc, lay=lay, draws=draws, flows=flows, total_in=total_in, options=options,
                    rating_head=rating_head,
                    wave=wave_speeds(options, rho, water.bulk_modulus(cr.temperature_c)), cand=cand,
                    nu=float(nu), rho=float(rho))
@@ -142,7 +120,7 @@ def _draws(lay: Layout, k: int, chainage: NDArray, length: float, total_in) -> l
     return draws
 
 
-def _tanks_and_candidates(s: _System) -> None:
+def _tanks_and_candidates(s: System) -> None:
     """Tanks on every link, then what each segment may be made of (static, surge, speed).
 
     Where surge leaves a segment no class (or only pipes so wide that the water barely
@@ -175,7 +153,7 @@ def _tanks_and_candidates(s: _System) -> None:
                                          [[f.index for f in surf] for surf in s.surfaces])
         s.allowed, s.seg_static, gaps = [], [], []
         for k, prof in enumerate(lay.profiles):
-            allowed, static, gap = _admissible(s, k, prof)
+            allowed, static, gap = admissible(s, k, prof)
             s.allowed.append(allowed)
             s.seg_static.append(static)
             gaps.append(gap)
@@ -185,7 +163,7 @@ def _tanks_and_candidates(s: _System) -> None:
         margin += shortfall + 1.0
 
 
-def _exact(s: _System, built, required, line_req):
+def _exact(s: System, built, required, line_req):
     """The exact energy lines of the system built as ``built`` (see :func:`tree_exact`)."""
     lay = s.lay
     return tree_exact(lay.profiles, built, lay.parents, s.surfaces, s.draws, s.options,
@@ -193,31 +171,7 @@ def _exact(s: _System, built, required, line_req):
                       s.sc.criteria, lay.point_k)
 
 
-def _admissible(s: _System, k: int, prof):
-    """Candidates admissible in each segment of link ``k``, and why others are not.
-
-    Returns the (segments, candidates) mask, the segments' static head [m], and how far
-    short of a class [m] the segments are that surge leaves without one.
-    """
-    cr = s.sc.criteria
-    surf = s.surfaces[k]
-    seg_r = np.searchsorted([f.index for f in surf], np.arange(prof.n - 1), side="right") - 1
-    level = np.array([surf[r].static_level for r in seg_r])
-    static = level - np.minimum(prof.pipe_m[:-1], prof.pipe_m[1:])
-    v = s.cand[k][0]
-    surge = np.where(np.isfinite(s.wave)[None, :],
-                     sg.surge_head(s.surge_len[k][seg_r][:, None], v, s.wave[None, :],
-                                   cr.valve_closure_s), 0.0)
-    ok_static = static[:, None] <= s.rating_head[None, :]
-    fits = cr.surge_rating_factor * s.rating_head[None, :] - static[:, None] - surge
-    slow = v <= cr.velocity_max_mps
-    allowed = ok_static & (fits >= 0) & slow
-    pool = surge_pool(ok_static & slow, v, cr.velocity_min_mps)
-    short = ~(allowed & pool).any(axis=1) & pool.any(axis=1)
-    return allowed, static, -np.max(np.where(pool, fits, -np.inf), axis=1)[short]
-
-
-def _requirements(s: _System):
+def _requirements(s: System):
     """Pressure required at every point: the line's rule, and outlets at their points.
 
     The line's rule is ``criteria.min_line_pressure_m``, or half the static pressure
@@ -238,7 +192,7 @@ def _requirements(s: _System):
     return required, line_req
 
 
-def _precheck(s: _System, required, line_req) -> None:
+def _precheck(s: System, required, line_req) -> None:
     """Explain, in words and numbers, why no design can exist.
 
     Either no pipe fits a segment, or even the largest pipe each segment admits cannot
@@ -265,7 +219,7 @@ def _precheck(s: _System, required, line_req) -> None:
         raise no_design(problems)
 
 
-def _size(s: _System, required, line_req):
+def _size(s: System, required, line_req):
     """Solve the programme, build the pipes, recheck every point, tighten where short.
 
     The programme carries the velocity heads (exactly for a sub-stretch of one pipe);
@@ -308,14 +262,14 @@ def _size(s: _System, required, line_req):
     return sizing, built, energies, remaps, req_r, converged, problem
 
 
-def _where_point(s: _System, offsets, i: int) -> str:
+def _where_point(s: System, offsets, i: int) -> str:
     """A point of the system's programme in words: its link and chainage."""
     k = int(np.searchsorted(offsets, i, side="right") - 1)
     ch = s.lay.profiles[k].chainage_m[i - offsets[k]]
     return (f"on {s.lay.names[k]} " if len(s.lay.profiles) > 1 else "") + f"at chainage {ch:,.0f} m"
 
 
-def _results(s: _System, built, energies, remaps, req_r, sizing, single, converged) -> NetworkPlan:
+def _results(s: System, built, energies, remaps, req_r, sizing, single, converged) -> NetworkPlan:
     """Per-link results, checks and the plan (design or check mode)."""
     sc, lay = s.sc, s.lay
     total = float(sum(o.flow_m3s for o in sc.outlets))
@@ -349,7 +303,7 @@ def _results(s: _System, built, energies, remaps, req_r, sizing, single, converg
     return _with_uncertainty(plan)
 
 
-def _link_result(s: _System, k: int, built, e, remap, req, auto_no: int):
+def _link_result(s: System, k: int, built, e, remap, req, auto_no: int):
     """The LinkPlan of link ``k``: stretches, valves, tanks and outlets on the built pipes."""
     lay, cr = s.lay, s.sc.criteria
     prof = lay.profiles[k]
@@ -390,7 +344,7 @@ def _link_result(s: _System, k: int, built, e, remap, req, auto_no: int):
     return link, auto_no
 
 
-def _link_findings(s: _System, k: int, link: LinkPlan, seg_rating: NDArray) -> list[Finding]:
+def _link_findings(s: System, k: int, link: LinkPlan, seg_rating: NDArray) -> list[Finding]:
     """Every check of one link, at every point.
 
     At a tank, the pipe arriving still carries the static head of the level upstream,
@@ -428,7 +382,7 @@ def _link_findings(s: _System, k: int, link: LinkPlan, seg_rating: NDArray) -> l
     return out
 
 
-def _system_findings(s: _System, links, sizing, single, converged) -> list[Finding]:
+def _system_findings(s: System, links, sizing, single, converged) -> list[Finding]:
     """Findings about the system as a whole: dead ends, the recheck, the sizing method."""
     out = []
     children = s.lay.children

@@ -69,14 +69,18 @@ def candidate_data(options, flows, rho, nu, method):
 def wave_speeds(options, rho, bulk_modulus):
     """Pressure-wave speed of each option [m/s] (NaN where its wall is not known).
 
-    Korteweg's thin-wall form with the mean diameter (outside diameter less one wall)
-    and the water's adiabatic bulk modulus at the design temperature [Pa]
-    (:func:`~planner.hydraulics.water.bulk_modulus`).
+    Korteweg's thin-wall form (:func:`~planner.hydraulics.surge.wave_speed`) with the
+    mean wall that the bore is computed from, ``e = (OD - ID) / 2``, and the diameter
+    at mid-wall ``OD - e``, and the water's adiabatic bulk modulus at the design
+    temperature [Pa] (:func:`~planner.hydraulics.water.bulk_modulus`).  The mean wall
+    rather than the catalogue's minimum: it is the pipe's likely wall, the same one the
+    friction sees, and gives the (higher, so safer) wave speed of a stiffer pipe.
     """
     out = []
     for o in options:
-        if np.isfinite(o.elastic_modulus) and np.isfinite(o.wall) and np.isfinite(o.outside_diameter):
-            out.append(sg.wave_speed(o.outside_diameter - o.wall, o.wall, o.elastic_modulus,
+        wall = (o.outside_diameter - o.inside_diameter) / 2
+        if np.isfinite(o.elastic_modulus) and np.isfinite(wall) and wall > 0:
+            out.append(sg.wave_speed(o.outside_diameter - wall, wall, o.elastic_modulus,
                                      density=rho, bulk_modulus=bulk_modulus))
         else:
             out.append(float("nan"))
@@ -216,11 +220,29 @@ def build_line(prof: Profile, splits: NDArray, lengths: NDArray, options: list[P
     return refined, seg_opt
 
 
+def reach_equivalents(prof, seg_opt, velocity, reaches_r, wave):
+    """Each reach's pipes as built, as one equivalent pipe for the pressure wave.
+
+    Returns the equivalent wave speeds [m/s] and velocities [m/s] of the reaches
+    (:func:`~planner.hydraulics.surge.equivalent_pipe`), from the segments' options
+    ``seg_opt``, the options' wave speeds ``wave`` and the velocity at each segment's
+    start [m/s].  On a tree, the pipes of the link's own reach stand for the wave's
+    whole path.
+    """
+    seg_len = np.diff(prof.slope_length_m)
+    pairs = [sg.equivalent_pipe(seg_len[a:b], wave[seg_opt[a:b]], velocity[a:b])
+             for a, b in reaches_r]
+    return np.array([p[0] for p in pairs]), np.array([p[1] for p in pairs])
+
+
 def stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, cr, surge_len):
     """Runs of one option, with their cost, ratings, pressures and surge.
 
     ``surge_len`` is the wave's path length of each reach [m]
-    (:func:`~planner.hydraulics.network.surge_path_lengths`).
+    (:func:`~planner.hydraulics.network.surge_path_lengths`).  The surge of a stretch
+    is :func:`~planner.hydraulics.surge.series_surge_head`: its own pipe's Joukowsky
+    rise, capped for slow closures by the rigid-column rise of the reach's water, with
+    the reach's pipes as one equivalent pipe (travel time and momentum kept).
     """
     out = []
     sl, ch = prof.slope_length_m, prof.chainage_m
@@ -228,6 +250,7 @@ def stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, cr
     for r, (a, b) in enumerate(reaches_r):
         reach_of[a:b] = r
     breaks = set(a for a, _ in reaches_r)
+    path = list(zip(*reach_equivalents(prof, seg_opt, energy.velocity, reaches_r, wave)))
     start = 0
     for s in range(1, seg_opt.size + 1):
         if s < seg_opt.size and seg_opt[s] == seg_opt[start] and s not in breaks:
@@ -238,12 +261,13 @@ def stretches(prof, energy, seg_opt, options, seg_rating, *, reaches_r, wave, cr
         length = float(sl[b] - sl[a])
         r = int(reach_of[a])
         v = float(np.max(energy.velocity[a:b]))
-        surge = float(sg.surge_head(surge_len[r], v, wave[j], cr.valve_closure_s)) \
-            if np.isfinite(wave[j]) else float("nan")
-        # the rule the candidates were admitted by: each segment's static head (its lower
-        # end) plus the surge of its own velocity
+        a_e, v_e = path[r]
+        surge = float(sg.series_surge_head(surge_len[r], v, wave[j], cr.valve_closure_s,
+                                           a_e, v_e)) if np.isfinite(wave[j]) else float("nan")
+        # each segment's static head (its lower end) plus the surge of its own velocity
         seg_static = energy.static_head[a:b] - np.minimum(prof.pipe_m[a:b], prof.pipe_m[a + 1:b + 1])
-        seg_surge = (sg.surge_head(surge_len[r], energy.velocity[a:b], wave[j], cr.valve_closure_s)
+        seg_surge = (sg.series_surge_head(surge_len[r], energy.velocity[a:b], wave[j],
+                                          cr.valve_closure_s, a_e, v_e)
                      if np.isfinite(wave[j]) else np.full(b - a, np.nan))
         worst = int(np.argmax(np.nan_to_num(seg_static + seg_surge, nan=-np.inf)))
         out.append(Stretch(option=o, start_index=a, end_index=b, chainage_m=float(ch[a]),

@@ -117,6 +117,54 @@ def surge_head(length, velocity, wave_speed_mps, closure_time):
     return as_output(np.where(closure_time <= 2.0 * length / a, full, np.minimum(full, slow)))
 
 
+def equivalent_pipe(lengths, wave_speeds, velocities) -> tuple[float, float]:
+    """One pipe that stands for pipes in series on a wave's path: ``(a_e, V_e)``.
+
+    .. math:: a_e = \\frac{\\sum L_i}{\\sum L_i / a_i}, \\qquad
+              V_e = \\frac{\\sum L_i V_i}{\\sum L_i}
+
+    The wave speed keeps the path's travel time; the velocity (the flow over the
+    equivalent area ``sum L_i / sum (L_i / A_i)``) keeps the water column's momentum.
+    The equivalent pipe of Chaudhry, "Applied Hydraulic Transients" (3rd ed., Springer
+    2014), sec. 3.9 (from memory); Wylie & Streeter (1993) treat series pipes the same
+    way.  Pipes without a wave speed (NaN) are left out of ``a_e``.
+
+    Examples
+    --------
+    >>> a, v = equivalent_pipe([1000.0, 1000.0], [300.0, 1200.0], [1.0, 0.5])
+    >>> round(a), v
+    (480, 0.75)
+    """
+    L = np.asarray(lengths, dtype=float)
+    a = np.asarray(wave_speeds, dtype=float)
+    v = np.asarray(velocities, dtype=float)
+    known = np.isfinite(a) & (L > 0)
+    a_e = float(np.sum(L[known]) / np.sum(L[known] / a[known])) if np.any(known) else float("nan")
+    return a_e, float(np.sum(L * v) / np.sum(L))
+
+
+def series_surge_head(length, velocity, wave_speed_mps, closure_time, path_wave_speed,
+                      path_velocity):
+    """Head rise at a pipe of a series line when a valve closes in ``closure_time`` [m].
+
+    :func:`surge_head` with the path's equivalent pipe (:func:`equivalent_pipe`):
+    the closure counts as rapid when it is shorter than the wave's return time
+    ``2 L / a_e``, and then the rise is the pipe's own Joukowsky ``a V / g`` (its
+    velocity stopped, its wave speed); a slower closure gives at most Michaud's
+    ``2 L V_e / (g t)``, the rigid-column rise of the whole path's water.  With one pipe
+    (``a_e = a``, ``V_e = V``) this is :func:`surge_head`.
+
+    >>> float(series_surge_head(2000.0, 1.0, 300.0, 20.0, 300.0, 1.0)) == float(
+    ...     surge_head(2000.0, 1.0, 300.0, 20.0))
+    True
+    """
+    length = np.asarray(length, dtype=float)
+    full = np.asarray(wave_speed_mps, dtype=float) * np.asarray(velocity, dtype=float) / G
+    slow = 2.0 * length * np.asarray(path_velocity, dtype=float) / (G * max(float(closure_time), 1e-9))
+    rapid = closure_time <= 2.0 * length / np.asarray(path_wave_speed, dtype=float)
+    return as_output(np.where(rapid, full, np.minimum(full, slow)))
+
+
 def safe_closure_time(length, velocity, allowed_rise):
     """Closure time that keeps Michaud's surge below ``allowed_rise`` [s]: ``2 L V / (g dH)``."""
     return as_output(2.0 * np.asarray(length) * np.asarray(velocity)

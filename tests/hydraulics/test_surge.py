@@ -49,3 +49,31 @@ def test_surge_head_regimes():
     assert slow < full
     t = sg.safe_closure_time(2000.0, 0.786, slow)
     assert t == pytest.approx(60.0)
+
+
+def test_series_pipes_as_one_equivalent_pipe():
+    """Pipes in series as one pipe (Chaudhry, Applied Hydraulic Transients, 3rd ed. 2014,
+    sec. 3.9, from memory): the wave's travel time and the column's momentum are kept.
+
+    Closed forms: the return time 2 sum(L_i / a_i) decides whether a closure is rapid;
+    a slow closure gives the rigid-column rise 2 sum(L_i V_i) / (g t) (Michaud's
+    estimate of the whole column, Wylie & Streeter 1993, ch. 1); a rapid one the pipe's
+    own Joukowsky a V / g."""
+    from planner.hydraulics.surge import equivalent_pipe, series_surge_head, surge_head
+    from planner.units import G
+
+    lengths, speeds, velocities = [1200.0, 800.0], [280.0, 1100.0], [0.6, 1.4]
+    a_e, v_e = equivalent_pipe(lengths, speeds, velocities)
+    travel = 1200.0 / 280.0 + 800.0 / 1100.0
+    assert 2000.0 / a_e == pytest.approx(travel, rel=1e-12)
+    assert 2000.0 * v_e == pytest.approx(1200.0 * 0.6 + 800.0 * 1.4, rel=1e-12)
+    t_r = 2 * travel                                     # 10.0 s
+    slow = series_surge_head(2000.0, 0.6, 280.0, 60.0, a_e, v_e)
+    assert slow == pytest.approx(2 * (1200.0 * 0.6 + 800.0 * 1.4) / (G * 60.0), rel=1e-12)
+    rapid = series_surge_head(2000.0, 0.6, 280.0, 0.9 * t_r, a_e, v_e)
+    assert rapid == pytest.approx(280.0 * 0.6 / G, rel=1e-12)
+    # the stiff pipe alone would call a 5 s closure slow (2 L / a = 3.6 s); the path does not
+    assert float(surge_head(2000.0, 1.4, 1100.0, 5.0)) < 1100.0 * 1.4 / G
+    assert series_surge_head(2000.0, 1.4, 1100.0, 5.0, a_e, v_e) == pytest.approx(1100.0 * 1.4 / G)
+    # a pipe without a wave speed is left out of the travel time, not made infinite
+    assert equivalent_pipe([500.0, 500.0], [300.0, float("nan")], [1.0, 1.0])[0] == 300.0
