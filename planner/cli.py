@@ -16,6 +16,30 @@ from .scenario.keys import default
 DEMO_SCENARIO = Path(__file__).resolve().parent.parent / "demo_terrain" / "scenario.toml"
 
 
+class _KeyValue(click.ParamType):
+    """A number held to the range of the scenario key it stands for (one rule for both).
+
+    A bad value is a usage error (exit 2) naming the option and the range.
+    """
+
+    name = "number"
+
+    def __init__(self, table: str, key: str):
+        from .scenario.keys import keys_of
+
+        self.key = keys_of(table)[key]
+
+    def convert(self, value, param, ctx):
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            self.fail(f"{value!r} is not a number", param, ctx)
+        problem = self.key.check(number)
+        if problem:
+            self.fail(problem, param, ctx)
+        return number
+
+
 class _Reported(click.ClickException):
     def show(self, file=None):
         click.echo(f"error: {self.message}", err=True)
@@ -72,11 +96,13 @@ def main(verbose):
 @click.argument("route", type=click.Path(dir_okay=False, path_type=Path))
 @click.option("--dem", "dems", multiple=True, required=True, type=click.Path(path_type=Path),
               help="DEM file (GeoTIFF, VRT, ...); repeat for several tiles.")
-@click.option("--spacing", type=click.FloatRange(min=0.0, min_open=True), default=None,
+@click.option("--spacing", type=_KeyValue("route", "spacing_m"), default=None,
               help="Largest point spacing [m]; default the DEM cell size.")
-@click.option("--cover", type=float, default=default("criteria", "cover_m"), show_default=True,
+@click.option("--cover", type=_KeyValue("criteria", "cover_m"), default=default("criteria", "cover_m"),
+              show_default=True,
               help="Cover over the pipe [m].")
-@click.option("--max-void", type=float, default=default("terrain", "max_void_m"), show_default=True,
+@click.option("--max-void", type=_KeyValue("terrain", "max_void_m"),
+              default=default("terrain", "max_void_m"), show_default=True,
               help="Longest DEM void bridged along the line [m].")
 @click.option("--out", type=click.Path(dir_okay=False, path_type=Path), default=None,
               help="Write the profile as CSV here (default: standard output).")
@@ -256,9 +282,12 @@ def plan(scenario, out, overwrite):
 @main.command()
 @click.argument("catalogues", nargs=-1)
 @click.option("--material", "materials", multiple=True, help="Keep this material (repeatable).")
-@click.option("--min-size", type=float, default=None, help="Smallest outside diameter [mm].")
-@click.option("--max-size", type=float, default=None, help="Largest outside diameter [mm].")
-@click.option("--min-pn", type=float, default=None, help="Lowest pressure rating [bar].")
+@click.option("--min-size", type=_KeyValue("design", "min_size_mm"), default=None,
+              help="Smallest outside diameter [mm].")
+@click.option("--max-size", type=_KeyValue("design", "max_size_mm"), default=None,
+              help="Largest outside diameter [mm].")
+@click.option("--min-pn", type=_KeyValue("pipe", "pressure_rating_bar"), default=None,
+              help="Lowest pressure rating [bar].")
 def catalogue(catalogues, materials, min_size, max_size, min_pn):
     """List pipe options from CATALOGUES (built-in names or CSV paths; default all built-in).
 
