@@ -182,13 +182,17 @@ def _report(plan, written):
         for f in plan.features:
             click.echo(f"    {f.kind.replace('_', ' '):<9} {f.chainage_m:>8,.0f} m  "
                        f"DN{f.size_mm:<4.0f} {f.rule}")
-    _uncertainty_lines([("", plan.uncertainty)] if plan.uncertainty else [])
+    _uncertainty_lines([("", plan.uncertainty)] if plan.uncertainty else [], plan.confidence_prices)
     _findings_and_files(plan.findings, written)
 
 
-def _uncertainty_lines(runs):
+def _uncertainty_lines(runs, prices=()):
     if not runs:
         return
+    if prices:
+        words = ", ".join(f"{c:.0%} {cost:,.0f}" if cost is not None else f"{c:.0%} no design"
+                          for c, cost in prices)
+        click.echo(f"  price of confidence (pipe cost at each design.confidence): {words}")
     m = runs[0][1].model
     click.echo(f"  DEM uncertainty (sigma {m.sigma_m:.2f} m over {m.correlation_m:,.0f} m, "
                f"{runs[0][1].realisations:,} realisations; {m.source}):")
@@ -197,8 +201,8 @@ def _uncertainty_lines(runs):
             click.echo(f"    path {name}:")
         for o, p, fall in u.outlets:
             click.echo(f"    {o}: {p:.0%} chance below its minimum; 95 % fall {fall:.1f} m")
-        click.echo(f"    recommended margin: +{u.margin_m:.1f} m on outlet minimums, "
-                   f"+{u.static_margin_m:.1f} m on static pressure")
+        from .design.results import margin_sentence
+        click.echo(f"    {margin_sentence(u.margin_m, u.static_margin_m, u.design_confidence)}")
 
 
 def _report_network(plan, written):
@@ -224,7 +228,7 @@ def _report_network(plan, written):
         n_air = sum(f.kind == "air_valve" for f in lk.features)
         n_wash = sum(f.kind == "washout" for f in lk.features)
         click.echo(f"    {n_air} air valve(s), {n_wash} washout(s)")
-    _uncertainty_lines(list(plan.uncertainty))
+    _uncertainty_lines(list(plan.uncertainty), plan.confidence_prices)
     _findings_and_files(plan.findings, written)
 
 

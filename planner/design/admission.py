@@ -45,6 +45,9 @@ class System:
     # per link: each reach's equivalent pipe (wave speed [m/s], velocity [m/s]) that the
     # candidates are admitted with; empty: each candidate as if it were the whole reach
     paths: list = field(default_factory=list)
+    # per link: the margin at each point that holds the design to design.confidence [m]
+    # (empty: none); added to the pressures required and to the static head
+    margin: list = field(default_factory=list)
 
     def on(self, k: int) -> str:
         """The prefix naming link ``k`` in a message (none on a single line)."""
@@ -81,6 +84,9 @@ def surge_paths(s: System, built, energies, remaps) -> bool:
         wave = s.wave[seg_opt]
         rise = sg.series_surge_head(s.surge_len[k][seg_r], e.velocity[:-1], wave, cr.valve_closure_s,
                                     a_e[seg_r], v_e[seg_r])
+        if s.margin:
+            m = np.interp(refined.chainage_m, s.lay.profiles[k].chainage_m, s.margin[k])
+            static = static + np.maximum(m[:-1], m[1:])
         over = static + np.where(np.isfinite(wave), rise, 0.0) \
             - cr.surge_rating_factor * s.rating_head[seg_opt]
         short |= bool(np.any(over > 1e-6))
@@ -111,7 +117,10 @@ def admissible(s: System, k: int, prof):
         rise = sg.surge_head(length, v, s.wave[None, :], cr.valve_closure_s)
     surge = np.where(np.isfinite(s.wave)[None, :], rise, 0.0)
     ok_static = static[:, None] <= s.rating_head[None, :]
-    fits = cr.surge_rating_factor * s.rating_head[None, :] - static[:, None] - surge
+    if s.margin:                 # the class holds the static head at the design confidence
+        static = static + np.maximum(s.margin[k][:-1], s.margin[k][1:])
+    fits = np.minimum(s.rating_head[None, :] - static[:, None],
+                      cr.surge_rating_factor * s.rating_head[None, :] - static[:, None] - surge)
     slow = v <= cr.velocity_max_mps
     allowed = ok_static & (fits >= 0) & slow
     pool = surge_pool(ok_static & slow, v, cr.velocity_min_mps)

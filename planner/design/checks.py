@@ -15,6 +15,7 @@ from numpy.typing import NDArray
 
 from .._arrays import true_runs
 from ..units import G, LPS
+from .uncertainty import margin_sentence
 
 
 @dataclass(frozen=True)
@@ -464,8 +465,7 @@ def check_uncertainty(u, path: str | None = None) -> list[Finding]:
                                "use the next pressure class there, or survey the low points", a, b))
     out.append(Finding("note", "dem-uncertainty",
                        f"{on}with {basis}: {u.p_any_outlet_short:.0%} chance that some outlet is "
-                       f"short of its minimum pressure; to be 95 % sure, add {u.margin_m:.1f} m to "
-                       f"outlet minimum pressures and allow {u.static_margin_m:.1f} m more static "
-                       "pressure than the DEM gives",
+                       f"short of its minimum pressure; "
+                       + margin_sentence(u.margin_m, u.static_margin_m, u.design_confidence),
                        "a field survey of the line's levels removes most of this uncertainty"))
     return out

@@ -38,7 +38,7 @@ from .problem import (RECHECK_ROUNDS, build_line, candidate_data, cheapest_per_s
 from .results import LinkPlan, NetworkPlan, OutletResult, TankResult, as_line_plan, finding_order
 from .sizing import best_single_size
 from .tanks import TankSite, place_tanks
-from .uncertainty import line_uncertainty, model_for
+from .uncertainty import deviation_sd, line_uncertainty, model_for
 
 
 #: Most profile points a plan may hold, all links together [-]: 100,000 took 1.3 GB and
@@ -148,6 +148,7 @@ def _tanks_and_candidates(s: System) -> None:
             s.sites.append(sites)
             first = FreeSurface(0, lvl, lay.low_level_m if lay.parents[k] < 0 else np.nan)
             s.surfaces.append([first] + [FreeSurface(t.index, t.level, t.level) for t in sites])
+        _confidence_margins(s)
         s.surge_len = surge_path_lengths([p.slope_length_m for p in lay.profiles],
                                          list(lay.parents),
                                          [[f.index for f in surf] for surf in s.surfaces])
@@ -175,7 +176,10 @@ def _requirements(s: System):
     """Pressure required at every point: the line's rule, and outlets at their points.
 
     The line's rule is ``criteria.min_line_pressure_m``, or half the static pressure
-    where that is less (near a free surface; common practice).
+    where that is less (near a free surface; common practice).  With confidence margins
+    (:func:`_confidence_margins`) an outlet's minimum is raised by its margin, and the
+    line's rule is at least the margin: the grade line stays above the pipe (at crests
+    above all) with the design confidence.
     """
     cr, lay = s.sc.criteria, s.lay
     required, line_req = [], []
@@ -183,13 +187,66 @@ def _requirements(s: System):
         idx = [f.index for f in s.surfaces[k]]
         pr = np.searchsorted(idx, np.arange(prof.n), side="right") - 1
         static_p = np.array([s.surfaces[k][r].static_level for r in pr]) - prof.pipe_m
-        req = np.minimum(cr.min_line_pressure_m, np.maximum(static_p, 0.0) / 2.0)
-        line_req.append(req.copy())
+        line = np.minimum(cr.min_line_pressure_m, np.maximum(static_p, 0.0) / 2.0)
+        if s.margin:            # the grade line above the pipe at the design confidence
+            line = np.maximum(line, s.margin[k])
+        req = line.copy()
         for o, kk, j in lay.placed:
             if kk == k:
-                req[j] = max(req[j], o.min_pressure_m)
+                req[j] = max(req[j], o.min_pressure_m + (s.margin[k][j] if s.margin else 0.0))
+        line_req.append(line)
         required.append(req)
     return required, line_req
+
+
+def _design_confidence(sc: Scenario) -> float | None:
+    """The confidence the design is held to, or None (check mode, 0.5, DEM not named)."""
+    spec, d = sc.uncertainty, sc.design
+    if d is None or d.confidence <= 0.5 or not spec.enabled \
+            or (spec.product is None and spec.sigma_m is None):
+        return None
+    return d.confidence
+
+
+def _confidence_margins(s: System) -> None:
+    """The margins that hold the design to ``design.confidence`` [m], per link and point.
+
+    ``z_c`` times the standard deviation of the DEM-error deviation of the pressure
+    (:func:`~planner.design.uncertainty.deviation_sd`, exact for the exponential error
+    model) along every path from the source; a point on several paths takes the largest.
+    Set only in design mode when the scenario names its DEM (``uncertainty.product`` or
+    ``sigma_m``): a guessed DEM is not a basis for margins.
+    """
+    from scipy.stats import norm
+
+    sc, lay = s.sc, s.lay
+    s.margin = []
+    confidence = _design_confidence(sc)
+    model = model_for(sc.uncertainty, survey=sc.terrain is None)
+    if confidence is None or model is None:
+        return
+    z = float(norm.ppf(confidence))
+    off = np.zeros(len(lay.profiles))                    # path chainage of each link's start
+    for k, par in enumerate(lay.parents):
+        if par >= 0:
+            off[k] = off[par] + lay.profiles[par].chainage_m[-1]
+    sd = [np.zeros(p.n) for p in lay.profiles]
+    children = {int(p) for p in lay.parents}
+    for end in (k for k in range(len(lay.profiles)) if k not in children):
+        path = [end]
+        while lay.parents[path[-1]] >= 0:
+            path.append(int(lay.parents[path[-1]]))
+        path.reverse()
+        ch = np.concatenate([lay.profiles[k].chainage_m + off[k] for k in path])
+        first = np.concatenate([[0], np.cumsum([lay.profiles[k].n for k in path])])
+        starts = sorted({int(first[i] + f.index) for i, k in enumerate(path)
+                         for r, f in enumerate(s.surfaces[k]) if r > 0 or lay.parents[k] < 0})
+        pins = [off[k] + c for k in path for _, c, _ in lay.profiles[k].pins]
+        dev = deviation_sd(ch, starts, model, source_moves=sc.source.top_level_m is None,
+                           pins=pins)
+        for i, k in enumerate(path):
+            sd[k] = np.maximum(sd[k], dev[first[i]:first[i + 1]])
+    s.margin = [z * x for x in sd]
 
 
 def _precheck(s: System, required, line_req) -> None:
@@ -214,7 +271,8 @@ def _precheck(s: System, required, line_req) -> None:
         label = s.options[int(largest[k][0])].label
         problems += [s.on(k) + m for m in short_with_largest(
             prof.chainage_m, prof.pipe_m, energies[k], required[k], label, s.surfaces[k][1:],
-            cr.tank_inlet_head_m)]
+            cr.tank_inlet_head_m, s.margin[k] if s.margin else None,
+            s.sc.design.confidence if s.sc.design is not None else 0.5)]
     if problems:
         raise no_design(problems)
 
@@ -420,6 +478,7 @@ def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
     model = model_for(spec, survey=sc.terrain is None)
     if model is None:
         return plan
+    confidence = _design_confidence(sc)
     out, found, seen = [], list(plan.findings), {f.message for f in plan.findings}
     single = len(plan.links) == 1
     for k in plan.ends:
@@ -428,6 +487,8 @@ def _with_uncertainty(plan: NetworkPlan) -> NetworkPlan:
         u = line_uncertainty(path, model, realisations=spec.realisations, seed=spec.seed,
                              source_moves=sc.source.top_level_m is None,
                              pins=[c for _, c, _ in pins], pin_names=tuple(n for n, _, _ in pins))
+        if confidence is not None:
+            u = replace(u, design_confidence=confidence)
         name = plan.path_name(k)
         out.append((name, u))
         for f in check_uncertainty(u, path=None if single else name):

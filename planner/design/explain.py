@@ -39,12 +39,14 @@ def no_pipe_fits(chainage: NDArray, allowed: NDArray, seg_static: NDArray, ratin
 
 
 def short_with_largest(chainage: NDArray, pipe: NDArray, energy, required: NDArray,
-                       largest_label: str, tanks, tank_inlet_head: float) -> list[str]:
+                       largest_label: str, tanks, tank_inlet_head: float,
+                       margin: NDArray | None = None, confidence: float = 0.5) -> list[str]:
     """Where even the largest pipes allowed leave too little pressure, or cannot fill a tank.
 
     ``energy`` is the :class:`~planner.hydraulics.line.LineEnergy` of the link built
     with the largest pipe each segment admits; ``required`` the pressure needed at each
-    point [m]; ``tanks`` the link's break-pressure tanks as free surfaces.
+    point [m], including ``margin`` [m], the part held for ``confidence`` (said in the
+    message); ``tanks`` the link's break-pressure tanks as free surfaces.
     """
     out = []
     for a, b in runs(energy.pressure_head < required - 1e-6):
@@ -55,10 +57,13 @@ def short_with_largest(chainage: NDArray, pipe: NDArray, energy, required: NDArr
                        "above the static head line, so no pipe delivers there: re-route, lower "
                        "the line, move or remove the break-pressure tank upstream, or pump")
         else:
+            held = margin[worst] if margin is not None else 0.0
+            why = (f" ({required[worst] - held:.1f} m plus {held:.1f} m held for DEM error at "
+                   f"{confidence:.0%} confidence, design.confidence)" if held > 0.05 else "")
             out.append(f"{_where(chainage, a, b)} even the largest pipes ({largest_label}) leave "
                        f"{energy.pressure_head[worst]:.1f} m of pressure at chainage "
-                       f"{chainage[worst]:,.0f} m where {required[worst]:.1f} m is needed: allow "
-                       "larger sizes, reduce the design flow, or re-route")
+                       f"{chainage[worst]:,.0f} m where {required[worst]:.1f} m is needed{why}: "
+                       "allow larger sizes, reduce the design flow, or re-route")
     for f in tanks:
         need = f.static_level + tank_inlet_head
         if energy.arrival_hgl[f.index] < need:

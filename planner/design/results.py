@@ -21,7 +21,7 @@ from ..hydraulics.line import LineEnergy
 from .checks import Finding
 from .features import Feature
 from .sizing import SizingResult
-from .uncertainty import Uncertainty
+from .uncertainty import Uncertainty, margin_sentence  # noqa: F401  (for report/)
 
 if TYPE_CHECKING:                        # type names only: the scenario is read elsewhere
     from ..geo.network import RouteNetwork
@@ -122,6 +122,8 @@ class Plan:
     required_pressure_m: NDArray[np.float64] | None = None
     binding_chainages_m: tuple[float, ...] = field(default=())
     uncertainty: Uncertainty | None = None
+    #: the price of confidence: (design confidence, pipe cost or None where no design)
+    confidence_prices: tuple[tuple[float, float | None], ...] = field(default=())
 
     @property
     def errors(self) -> list[Finding]:
@@ -186,6 +188,8 @@ class NetworkPlan:
     link_flow_m3s: tuple[float, ...] = field(default=())
     #: the DEM-error Monte Carlo along each path from the source to a branch end
     uncertainty: tuple[tuple[str, Uncertainty], ...] = field(default=())
+    #: the price of confidence: (design confidence, pipe cost or None where no design)
+    confidence_prices: tuple[tuple[float, float | None], ...] = field(default=())
     #: points where a pressure limit binds the least-cost design: (link, chainage [m])
     binding: tuple[tuple[int, float], ...] = field(default=())
 
@@ -338,4 +342,5 @@ def line_result(plan: NetworkPlan) -> Plan:
         raise ValueError("line_result takes a plan of one link; use as_line_plan for a path")
     return replace(as_line_plan(plan, [0]), findings=plan.findings,
                    binding_chainages_m=tuple(c for _, c in plan.binding),
+                   confidence_prices=plan.confidence_prices,
                    uncertainty=plan.uncertainty[0][1] if plan.uncertainty else None)

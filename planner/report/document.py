@@ -17,6 +17,7 @@ from pathlib import Path
 
 from .files import atomic_path, write_text
 from ..cautions import CAUTIONS
+from ..design.results import margin_sentence
 from ..errors import OutputWarning
 
 LIMITATIONS = (
@@ -67,13 +68,21 @@ def _uncertainty_html(data: dict) -> list[str]:
             f"({esc(m['source'])}); {runs[0]['realisations']:,} realisations, seed "
             f"{runs[0]['seed']}. Pipes and flows are as designed; each realisation moves the "
             "ground, the source (unless its levels are absolute) and every tank.</p>")
+        prices = data.get("confidence_prices") or []
+        if prices:
+            parts.append("<p>Price of confidence (pipe cost of the design held to each "
+                         "confidence per point, design.confidence): " + ", ".join(
+                             f"{p['confidence']:.0%}: "
+                             + (f"{p['pipe_cost']:,.0f}" if p["pipe_cost"] is not None
+                                else "no design") for p in prices) + ".</p>")
         for r in runs:
             if len(runs) > 1:
                 parts.append(f"<h3>Path {esc(r['path'])}</h3>")
             parts.append(f"<p>Chance that some outlet is short of its minimum pressure: "
-                         f"<b>{r['p_any_outlet_below_minimum']:.0%}</b>. Recommended margins: add "
-                         f"<b>{r['recommended_outlet_margin_m']} m</b> to outlet minimum pressures, "
-                         f"and allow {r['recommended_static_margin_m']} m more static pressure.</p>")
+                         f"<b>{r['p_any_outlet_below_minimum']:.0%}</b>; "
+                         + esc(margin_sentence(r["recommended_outlet_margin_m"],
+                                               r["recommended_static_margin_m"],
+                                               r.get("design_confidence"))) + ".</p>")
             parts.append(_table(["outlet", "P(residual below minimum)", "95 % fall of the residual [m]"],
                                 [[o["name"], f"{o['p_below_minimum']:.1%}", o["residual_fall_95_m"]]
                                  for o in r["outlets"]]))

@@ -82,6 +82,7 @@ def plan_to_dict(plan: Plan) -> dict:
             "chainage_end_m": _f(f.chainage_end_m, 2), "message": f.message, "remedy": f.remedy,
         } for f in plan.findings],
         "uncertainty": uncertainty_to_dict(plan.uncertainty),
+        "confidence_prices": prices_to_list(plan.confidence_prices),
         "elevations": elevations_to_dict(prof, plan.stretches),
         "cautions": list(CAUTIONS),
         "points": points,
@@ -230,6 +231,12 @@ def uncertainty_to_dict(u) -> dict | None:
     return _uncertainty_dict(u)
 
 
+def prices_to_list(prices) -> list[dict]:
+    """The price of confidence: the pipe cost at each design confidence (null: no design)."""
+    return [{"confidence": c, "pipe_cost": _f(cost, 2) if cost is not None else None}
+            for c, cost in prices]
+
+
 def _uncertainty_dict(u) -> dict:
     """The DEM-error Monte Carlo ``u`` (not None) as in :func:`uncertainty_to_dict`."""
     m = u.model
@@ -240,6 +247,7 @@ def _uncertainty_dict(u) -> dict:
         "realisations": u.realisations, "seed": u.seed,
         "pinned_to": list(u.pinned),
         "p_any_outlet_below_minimum": _f(u.p_any_outlet_short, 4),
+        "design_confidence": u.design_confidence,
         "recommended_outlet_margin_m": _f(u.margin_m, 2),
         "recommended_static_margin_m": _f(u.static_margin_m, 2),
         "outlets": [{"name": n, "p_below_minimum": _f(p, 4), "residual_fall_95_m": _f(fall, 2)}
@@ -308,6 +316,7 @@ def network_to_dict(plan, link_plans, drawings) -> dict:
     uncertainty = [{"path": name, **_uncertainty_dict(u)} for name, u in plan.uncertainty]
     return {
         "schema": NETWORK_SCHEMA, "mode": plan.mode, "uncertainty": uncertainty,
+        "confidence_prices": prices_to_list(plan.confidence_prices),
         "tool": first["tool"], "project": first["project"], "inputs": first["inputs"],
         "water": first["water"], "source": first["source"],
         "summary": {

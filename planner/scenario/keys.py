@@ -233,6 +233,13 @@ SECTIONS: dict[str, tuple[Key, ...]] = {
             source="a choice of ours"),
         _flag("whole_pieces", True, doc="make each sub-stretch one pipe (MILPs); the result is "
               "the proven optimum within 0.1 %, its cost above the split-pipe optimum reported"),
+        Key("confidence", default=0.95, unit="-", low=0.5, high=0.999,
+            doc="the design holds each outlet's minimum pressure, the grade line above the "
+                "pipe (crests) and each pipe's class with this probability under the DEM error of "
+                "[uncertainty] (margins of z times the error's standard deviation); per point, "
+                "not for all together: n outlets all hold with at least 1 - n (1 - c) "
+                "(Bonferroni); 0.5 designs on the DEM as it is",
+            source="95 %: a usual engineering confidence (common practice)"),
         _flag("one_size_per_reach", False, doc="one diameter per reach between free surfaces "
               "(MILP); classes still follow the static head"),
     ),
@@ -247,9 +254,11 @@ SECTIONS: dict[str, tuple[Key, ...]] = {
     "uncertainty": (
         _flag("enabled", True, doc="run the DEM-error Monte Carlo (off for a CSV survey unless "
               "sigma_m is given)"),
-        _text("product", DEFAULT_PRODUCT,
+        _text("product",
               doc="which DEM: sets sigma from its published accuracy (table below: "
-                  + ", ".join(PRODUCTS) + "); another name needs sigma_m"),
+                  + ", ".join(PRODUCTS) + "); another name needs sigma_m.  Not given: "
+                  + DEFAULT_PRODUCT + " is assumed for the chances reported, and the design "
+                  "is not held to design.confidence (name the DEM, or give sigma_m)"),
         Key("sigma_m", unit="m", low=0, high=100,
             doc="standard deviation of the DEM's vertical error (default the product's); raise "
                 "it under forest (5-10 m, common practice)"),

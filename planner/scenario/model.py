@@ -150,6 +150,7 @@ class Design:
     no_tank_zones: tuple[tuple[float, float], ...] = ()
     split_spacing_m: float = _d("design", "split_spacing_m")
     whole_pieces: bool = _d("design", "whole_pieces")
+    confidence: float = _d("design", "confidence")
 
 
 @dataclass(frozen=True)
@@ -167,7 +168,7 @@ class UncertaintySpec:
     """The DEM error model and the Monte Carlo's size ([uncertainty])."""
 
     enabled: bool = _d("uncertainty", "enabled")
-    product: str = _d("uncertainty", "product")   # a key of design.uncertainty.PRODUCTS
+    product: str | None = None                     # a key of design.uncertainty.PRODUCTS
     sigma_m: float | None = None                   # overrides the product's value
     correlation_m: float = _d("uncertainty", "correlation_m")
     realisations: int = _d("uncertainty", "realisations")
