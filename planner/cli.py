@@ -196,13 +196,20 @@ def _uncertainty_lines(runs, prices=()):
     m = runs[0][1].model
     click.echo(f"  DEM uncertainty (sigma {m.sigma_m:.2f} m over {m.correlation_m:,.0f} m, "
                f"{runs[0][1].realisations:,} realisations; {m.source}):")
-    for name, u in runs:
+    from .design.results import margin_sentence
+
+    sentences = [margin_sentence(u.margin_m, u.static_margin_m, u.design_confidence)
+                 for _, u in runs]
+    same = len(set(sentences)) == 1            # said once when every path says the same
+    for (name, u), sentence in zip(runs, sentences):
         if name:
             click.echo(f"    path {name}:")
         for o, p, fall in u.outlets:
             click.echo(f"    {o}: {p:.0%} chance below its minimum; 95 % fall {fall:.1f} m")
-        from .design.results import margin_sentence
-        click.echo(f"    {margin_sentence(u.margin_m, u.static_margin_m, u.design_confidence)}")
+        if not same:
+            click.echo(f"    {sentence}")
+    if same:
+        click.echo(f"    {'every path: ' if len(runs) > 1 else ''}{sentences[0]}")
 
 
 def _report_network(plan, written):
