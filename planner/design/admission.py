@@ -100,8 +100,9 @@ def surge_paths(s: System, built, energies, remaps) -> bool:
 def admissible(s: System, k: int, prof):
     """Candidates admissible in each segment of link ``k``, and why others are not.
 
-    Returns the (segments, candidates) mask, the segments' static head [m], and how far
-    short of a class [m] the segments are that surge leaves without one.
+    Returns the (segments, candidates) mask, the segments' static head as the DEM gives
+    it [m] (for messages), and how far short of a class [m] the segments are that surge
+    and the confidence margin leave without one.
     """
     cr = s.sc.criteria
     surf = s.surfaces[k]
@@ -117,10 +118,11 @@ def admissible(s: System, k: int, prof):
         rise = sg.surge_head(length, v, s.wave[None, :], cr.valve_closure_s)
     surge = np.where(np.isfinite(s.wave)[None, :], rise, 0.0)
     ok_static = static[:, None] <= s.rating_head[None, :]
-    if s.margin:                 # the class holds the static head at the design confidence
-        static = static + np.maximum(s.margin[k][:-1], s.margin[k][1:])
-    fits = np.minimum(s.rating_head[None, :] - static[:, None],
-                      cr.surge_rating_factor * s.rating_head[None, :] - static[:, None] - surge)
+    held = static                # the class holds the static head at the design confidence
+    if s.margin:
+        held = static + np.maximum(s.margin[k][:-1], s.margin[k][1:])
+    fits = np.minimum(s.rating_head[None, :] - held[:, None],
+                      cr.surge_rating_factor * s.rating_head[None, :] - held[:, None] - surge)
     slow = v <= cr.velocity_max_mps
     allowed = ok_static & (fits >= 0) & slow
     pool = surge_pool(ok_static & slow, v, cr.velocity_min_mps)

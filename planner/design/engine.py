@@ -231,8 +231,7 @@ def _confidence_margins(s: System) -> None:
         if par >= 0:
             off[k] = off[par] + lay.profiles[par].chainage_m[-1]
     sd = [np.zeros(p.n) for p in lay.profiles]
-    children = {int(p) for p in lay.parents}
-    for end in (k for k in range(len(lay.profiles)) if k not in children):
+    for end in (k for k, below in enumerate(lay.children) if not below):
         path = [end]
         while lay.parents[path[-1]] >= 0:
             path.append(int(lay.parents[path[-1]]))
