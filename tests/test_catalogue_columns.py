@@ -8,7 +8,8 @@ from planner.catalogue.materials import columns_from_material
 from planner.catalogue.pipes import BUILTIN, PipeOption, load_catalogue
 from planner.catalogue.standards import temperature_factor
 from planner.errors import InputFileError
-from planner.report.quantities import bill, supply_length
+from planner.catalogue.materials import supply_length
+from planner.report.quantities import bill
 
 HEAD = ("material,label,outside_diameter_mm,inside_diameter_mm,pressure_rating_bar,"
         "roughness_mm,hazen_williams_c,cost_per_m")

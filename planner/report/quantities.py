@@ -2,8 +2,8 @@
 
 Reads results only.  Pipe lengths are the pipe's own (3-D) lengths, with a waste
 allowance, rounded up to whole pipe lengths or coils; joints follow each pipe's
-catalogue ``jointing`` (:data:`JOINTING`); valves and tanks are counted from the plan's
-features, fittings from its size changes and junctions.  Unit costs
+catalogue ``jointing`` (:data:`~planner.catalogue.materials.JOINTING`); valves and tanks
+are counted from the plan's features, fittings from its size changes and junctions.  Unit costs
 come from the catalogue (pipe) and ``catalogue/data/items.csv`` (the rest); the
 built-in prices are invented demo values.  Written as CSV and as XLSX (openpyxl).
 """
@@ -16,62 +16,12 @@ import math
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..catalogue.materials import JOINTINGS
+from ..catalogue.materials import JOINTING, supply_length
 from .files import atomic_path, write_text
 
 ITEMS = Path(__file__).resolve().parent.parent / "catalogue" / "data" / "items.csv"
 #: Waste and offcut allowance on pipe lengths [-] (common practice, 2-5 %).
 WASTE = 0.03
-
-
-@dataclass(frozen=True)
-class Jointing:
-    """What the bill makes of one catalogue ``jointing`` key.
-
-    Attributes
-    ----------
-    coil_up_to_mm : float
-        Sold in 100 m coils up to this outside diameter [mm] (0: never).
-    length_m : float
-        Else in straight lengths of this [m].
-    joint : str
-        The joint listed, one per length or coil bought (an item of ``items.csv``,
-        priced by the pipe's outside diameter); ``""`` lists none.
-    """
-
-    coil_up_to_mm: float
-    length_m: float
-    joint: str
-
-
-#: How a pipe of each jointing is sold and joined (common practice; check your supplier):
-#: electrofusion-jointed PE in 100 m coils up to 110 mm, 12 m lengths above; butt-fused PE
-#: in 12 m lengths; PVC-U (solvent-cement or rubber-ring sockets) and steel (screwed
-#: sockets) in 6 m lengths; other jointing in 6 m lengths, joints not counted.
-JOINTING = {
-    "electrofusion": Jointing(110.0, 12.0, "electrofusion coupler"),
-    "butt-fusion": Jointing(0.0, 12.0, "butt-fusion weld"),
-    "solvent": Jointing(0.0, 6.0, "solvent-cement joint"),
-    "rubber-ring": Jointing(0.0, 6.0, "rubber-ring joint"),
-    "threaded": Jointing(0.0, 6.0, "threaded socket"),
-    "other": Jointing(0.0, 6.0, ""),
-}
-if set(JOINTING) != set(JOINTINGS):                  # the catalogue's keys, every one read here
-    raise AssertionError(f"JOINTING keys {sorted(JOINTING)} differ from JOINTINGS {JOINTINGS}")
-
-
-def supply_length(jointing: str, outside_diameter_mm: float) -> tuple[float, str]:
-    """How a pipe of this catalogue ``jointing`` is sold: the supply length [m] and its description.
-
-    Examples
-    --------
-    >>> supply_length("electrofusion", 110), supply_length("butt-fusion", 160)
-    ((100.0, 'coil of 100 m'), (12.0, '12 m length'))
-    """
-    j = JOINTING[jointing]
-    if outside_diameter_mm <= j.coil_up_to_mm:
-        return 100.0, "coil of 100 m"
-    return j.length_m, f"{j.length_m:g} m length"
 
 
 @dataclass(frozen=True)
